@@ -1,0 +1,1 @@
+"""The beam-transport network: nodes with their behaviour, links, graph checks."""

@@ -1,0 +1,200 @@
+"""What each element kind does to power: its behaviour in the network.
+
+This is the one place where an element kind meets its physics. Every kind
+maps to one of a few behaviours that the optimiser knows:
+
+* ``GAIN``: output = g × input (mirror, drift, fixed attenuator);
+* ``RANGE``: g_min × input ≤ output ≤ g_max × input (adjustable attenuator);
+* ``SPLIT``: shares s_k of the input, Σ s_k = input, bounded per output,
+  each output = efficiency_k × s_k (splitter);
+* ``COMBINE``: output = efficiency × Σ inputs (switch);
+* ``ABSORB``: takes all of its input (dump);
+* ``SOURCE`` and ``SINK`` for sources and scanners.
+"""
+
+from __future__ import annotations
+
+import enum
+from collections.abc import Callable
+from dataclasses import dataclass
+
+from beamplan.errors import Location
+from beamplan.layout.model import (
+    AttenuatorSpec,
+    DriftSpec,
+    DumpSpec,
+    ElementSpec,
+    MirrorSpec,
+    ScannerSpec,
+    SourceSpec,
+    SplitterSpec,
+    SwitchSpec,
+)
+
+__all__ = ["Behaviour", "Node", "Port", "element_node", "scanner_node", "source_node"]
+
+
+class Behaviour(enum.Enum):
+    """How a node moves power (see the module docstring)."""
+
+    SOURCE = "source"
+    GAIN = "gain"
+    RANGE = "range"
+    SPLIT = "split"
+    COMBINE = "combine"
+    ABSORB = "absorb"
+    SINK = "sink"
+
+
+@dataclass(frozen=True)
+class Port:
+    """One output of a node: its efficiency and the bounds of its share."""
+
+    name: str | None
+    efficiency: float = 1.0
+    fraction_min: float = 0.0
+    fraction_max: float = 1.0
+
+
+_NOWHERE = Location("<layout>", 1, 1)
+
+
+@dataclass(frozen=True)
+class Node:
+    """A node of the network with everything the optimiser needs.
+
+    Attributes
+    ----------
+    gain_min, gain_max
+        The gain (output over input) range; equal for a fixed gain.
+    provenance
+        Where the gain came from, in words ("given in the layout", ...).
+    """
+
+    id: str
+    kind: str
+    behaviour: Behaviour
+    gain_min: float = 1.0
+    gain_max: float = 1.0
+    ports: tuple[Port, ...] = (Port(None),)
+    heat_limit_w: float | None = None
+    available_w: float = 0.0
+    electrical_w: float | None = None
+    need_w: float = 0.0
+    max_w: float | None = None
+    priority: int = 1
+    select: str | None = None
+    provenance: str = ""
+    location: Location = _NOWHERE
+
+    @property
+    def is_source(self) -> bool:
+        """Whether the node is a source."""
+        return self.behaviour is Behaviour.SOURCE
+
+    @property
+    def is_scanner(self) -> bool:
+        """Whether the node is a scanner."""
+        return self.behaviour is Behaviour.SINK
+
+    @property
+    def adjustable(self) -> bool:
+        """Whether the optimiser chooses a setting here."""
+        if self.behaviour is Behaviour.RANGE:
+            return self.gain_max > self.gain_min
+        if self.behaviour is Behaviour.SPLIT:
+            return any(p.fraction_max > p.fraction_min for p in self.ports)
+        return False
+
+
+GIVEN = "given in the layout"
+
+
+def _mirror(spec: ElementSpec) -> dict[str, object]:
+    assert isinstance(spec, MirrorSpec)
+    return {"behaviour": Behaviour.GAIN, "gain_min": spec.reflectivity,
+            "gain_max": spec.reflectivity, "provenance": GIVEN}
+
+
+def _drift(spec: ElementSpec) -> dict[str, object]:
+    assert isinstance(spec, DriftSpec)
+    return {"behaviour": Behaviour.GAIN, "gain_min": spec.transmission,
+            "gain_max": spec.transmission, "provenance": GIVEN}
+
+
+def _attenuator(spec: ElementSpec) -> dict[str, object]:
+    assert isinstance(spec, AttenuatorSpec)
+    fixed = spec.transmission_min == spec.transmission_max
+    return {"behaviour": Behaviour.GAIN if fixed else Behaviour.RANGE,
+            "gain_min": spec.transmission_min, "gain_max": spec.transmission_max,
+            "provenance": GIVEN}
+
+
+def _splitter(spec: ElementSpec) -> dict[str, object]:
+    assert isinstance(spec, SplitterSpec)
+    ports = tuple(Port(o.name, o.efficiency, o.fraction_min, o.fraction_max)
+                  for o in spec.outputs)
+    return {"behaviour": Behaviour.SPLIT, "ports": ports, "provenance": GIVEN}
+
+
+def _switch(spec: ElementSpec) -> dict[str, object]:
+    assert isinstance(spec, SwitchSpec)
+    return {"behaviour": Behaviour.COMBINE, "gain_min": spec.efficiency,
+            "gain_max": spec.efficiency, "select": spec.select, "provenance": GIVEN}
+
+
+def _dump(spec: ElementSpec) -> dict[str, object]:
+    assert isinstance(spec, DumpSpec)
+    return {"behaviour": Behaviour.ABSORB, "gain_min": 0.0, "gain_max": 0.0, "ports": ()}
+
+
+BEHAVIOURS: dict[type[ElementSpec], Callable[[ElementSpec], dict[str, object]]] = {
+    MirrorSpec: _mirror,
+    DriftSpec: _drift,
+    AttenuatorSpec: _attenuator,
+    SplitterSpec: _splitter,
+    SwitchSpec: _switch,
+    DumpSpec: _dump,
+}
+
+
+def element_node(spec: ElementSpec) -> Node:
+    """The network node of an element, with its behaviour and gain.
+
+    Examples
+    --------
+    >>> element_node(MirrorSpec("m1", "mirror", reflectivity=0.9)).gain_max
+    0.9
+    >>> element_node(AttenuatorSpec("a1", "attenuator", transmission_min=0.2,
+    ...                             transmission_max=1.0)).behaviour
+    <Behaviour.RANGE: 'range'>
+    """
+    fields = BEHAVIOURS[type(spec)](spec)
+    return Node(id=spec.id, kind=spec.kind, heat_limit_w=spec.heat_limit_w,
+                location=spec.location, **fields)  # type: ignore[arg-type]
+
+
+def source_node(spec: SourceSpec) -> Node:
+    """The network node of a source.
+
+    Examples
+    --------
+    >>> source_node(SourceSpec("fel", 1e4)).available_w
+    10000.0
+    """
+    return Node(id=spec.id, kind="source", behaviour=Behaviour.SOURCE,
+                available_w=spec.power_w, electrical_w=spec.electrical_w,
+                location=spec.location)
+
+
+def scanner_node(spec: ScannerSpec) -> Node:
+    """The network node of a scanner.
+
+    Examples
+    --------
+    >>> scanner_node(ScannerSpec("litho-01", 300.0, 500.0)).max_w
+    500.0
+    """
+    return Node(id=spec.id, kind="scanner", behaviour=Behaviour.SINK, ports=(),
+                need_w=spec.need_w, max_w=spec.max_w, priority=spec.priority,
+                provenance=GIVEN, location=spec.location)

@@ -1,0 +1,208 @@
+"""The planning goals as sequences of LPs on one model, re-solved in place.
+
+* ``headroom``: progressive filling (lexicographic max-min of each scanner's
+  factor delivered ÷ need), then the least source power at those factors.
+* ``min-source``: the least source power that meets every need; when the
+  needs cannot all be met, an elastic LP minimises the weighted shortfall.
+* ``priority``: tiers in order, each filled up to its need with what the
+  tiers before it left; the rest then raises everyone's headroom.
+
+A scanner is frozen at a level when the dual value of its demand row is
+positive: then every optimum keeps that row tight (complementary slackness),
+so the scanner cannot rise without lowering another.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass
+
+import numpy as np
+
+from beamplan.errors import InternalError
+from beamplan.optimise.backend import INF, Backend, RawSolution
+from beamplan.optimise.lp import LpModel
+
+__all__ = ["GOALS", "GoalOutcome", "run_goal"]
+
+GOALS = ("headroom", "min-source", "priority")
+DUAL_TOL = 1e-9
+TIER_WEIGHT = 1000.0
+
+
+@dataclass(frozen=True)
+class GoalOutcome:
+    """The final solution of a goal and the primary stage, for shadow prices.
+
+    ``primary`` is ``"factor"`` (duals are per unit of the headroom factor,
+    objective −t), ``"source"`` (objective Σ source W) or ``"shortfall"``
+    (objective Σ weighted shortfall W).
+    """
+
+    solution: RawSolution
+    primary: str
+    primary_duals: np.ndarray
+    primary_value: float
+    levels: dict[str, float]
+    stages: int
+
+
+class _Driver:
+    def __init__(self, model: LpModel, backend: Backend) -> None:
+        self.m = model
+        self.b = backend
+        self.stages = 0
+        self.first: RawSolution | None = None
+
+    def solve(self, allow_infeasible: bool = False) -> RawSolution:
+        sol = self.b.solve()
+        self.stages += 1
+        if sol.status != "optimal" and not allow_infeasible:
+            raise InternalError(f"the LP stage {self.stages} ended {sol.status}; this is a "
+                                "bug in beamplan, please report it with the layout")
+        return sol
+
+    def need(self, sid: str) -> float:
+        return self.m.network.node[sid].need_w
+
+    def demand_active(self, sid: str, floor: float = 0.0) -> None:
+        """Row reads x + u − need·t ≥ 0 (floor unused)."""
+        row = self.m.demand_row[sid]
+        self.b.set_coefficient(row, self.m.factor_col, -self.need(sid))
+        self.b.set_rhs(row, floor)
+
+    def demand_fixed(self, sid: str, level: float) -> None:
+        """Row reads x + u ≥ level·need (t no longer in it)."""
+        row = self.m.demand_row[sid]
+        self.b.set_coefficient(row, self.m.factor_col, 0.0)
+        self.b.set_rhs(row, max(level, 0.0) * self.need(sid) * (1.0 - self.b.freeze_slack))
+
+    def factor_bounds(self, low: float, high: float) -> None:
+        self.b.set_bounds(self.m.factor_col, low, high)
+
+    def objective(self, costs: dict[int, float]) -> None:
+        self.b.set_objective(costs)
+
+    def fill(self, active: Iterable[str], levels: dict[str, float], low: float = 0.0,
+             high: float = INF) -> None:
+        """Progressive filling of ``active`` scanners; levels[sid] set for each."""
+        todo = [s for s in active if s not in levels]
+        for sid in todo:
+            self.demand_active(sid)
+        self.objective({self.m.factor_col: -1.0})
+        while todo:
+            self.factor_bounds(low, high)
+            sol = self.solve()
+            if self.first is None:
+                self.first = sol
+            level = float(sol.columns[self.m.factor_col])
+            duals = sol.row_duals
+            blocked = [s for s in todo if duals[self.m.demand_row[s]] > DUAL_TOL]
+            if level >= high * (1.0 - 1e-12) or not blocked:
+                blocked = list(todo)  # at the cap, or no dual certificate: freeze all
+            for sid in blocked:
+                levels[sid] = level
+                self.demand_fixed(sid, level)
+            todo = [s for s in todo if s not in levels]
+            low = level
+
+    def frugal_at_need(self) -> RawSolution:
+        """Least total source power with t fixed by the caller; may be infeasible."""
+        self.objective({col: 1.0 for col in self.m.source_col.values()})
+        return self.solve(allow_infeasible=True)
+
+    def frugal(self) -> RawSolution:
+        """Least total source power with every level held."""
+        self.factor_bounds(0.0, 0.0)
+        self.objective({col: 1.0 for col in self.m.source_col.values()})
+        return self.solve()
+
+
+def _reset(d: _Driver) -> None:
+    for sid, col in d.m.shortfall_col.items():
+        d.b.set_bounds(col, 0.0, 0.0)
+        d.demand_active(sid)
+    d.factor_bounds(0.0, INF)
+
+
+def _headroom(d: _Driver) -> GoalOutcome:
+    levels: dict[str, float] = {}
+    d.fill([s.id for s in d.m.network.scanners], levels)
+    final = d.frugal()
+    first = d.first or final
+    return GoalOutcome(final, "factor", first.row_duals, float(first.columns[d.m.factor_col]),
+                       levels, d.stages)
+
+
+def _weights(d: _Driver) -> dict[str, float]:
+    tiers = sorted({s.priority for s in d.m.network.scanners})
+    rank = {tier: len(tiers) - 1 - i for i, tier in enumerate(tiers)}
+    return {s.id: TIER_WEIGHT ** rank[s.priority] for s in d.m.network.scanners}
+
+
+def _min_source(d: _Driver) -> GoalOutcome:
+    d.factor_bounds(1.0, 1.0)
+    sol = d.frugal_at_need()
+    if sol.status == "optimal":
+        levels = {s.id: 1.0 for s in d.m.network.scanners}
+        return GoalOutcome(sol, "source", sol.row_duals, sol.objective, levels, d.stages)
+    weights = _weights(d)
+    for _sid, col in d.m.shortfall_col.items():
+        d.b.set_bounds(col, 0.0, INF)
+    d.objective({d.m.shortfall_col[s]: w for s, w in weights.items()})
+    elastic = d.solve()
+    for _sid, col in d.m.shortfall_col.items():
+        short = float(elastic.columns[col])
+        d.b.set_bounds(col, 0.0, short * (1.0 + d.b.freeze_slack) + d.b.freeze_slack)
+    d.objective({col: 1.0 for col in d.m.source_col.values()})
+    final = d.solve()
+    levels = {s.id: 1.0 - float(final.columns[d.m.shortfall_col[s.id]]) / s.need_w
+              for s in d.m.network.scanners}
+    return GoalOutcome(final, "shortfall", elastic.row_duals, elastic.objective, levels,
+                       d.stages)
+
+
+def _priority(d: _Driver) -> GoalOutcome:
+    scanners = d.m.network.scanners
+    tiers = sorted({s.priority for s in scanners})
+    levels: dict[str, float] = {}
+    for s in scanners:  # lower tiers wait: no demand yet
+        row = d.m.demand_row[s.id]
+        d.b.set_coefficient(row, d.m.factor_col, 0.0)
+        d.b.set_rhs(row, 0.0)
+    for tier in tiers:
+        d.fill([s.id for s in scanners if s.priority == tier], levels, 0.0, 1.0)
+    served = [s.id for s in scanners if levels[s.id] >= 1.0 - 1e-9]
+    for sid in served:
+        del levels[sid]
+    if served:
+        d.fill(served, levels, 1.0, INF)
+    final = d.frugal()
+    first = d.first or final
+    return GoalOutcome(final, "factor", first.row_duals, float(first.columns[d.m.factor_col]),
+                       levels, d.stages)
+
+
+def run_goal(model: LpModel, backend: Backend, goal: str) -> GoalOutcome:
+    """Solve ``goal`` on ``model`` with ``backend``; the model may be re-used.
+
+    Examples
+    --------
+    >>> from beamplan.layout.loader import load_layout
+    >>> from beamplan.network.graph import build_network
+    >>> from beamplan.optimise.lp import build_lp
+    >>> from beamplan.optimise.backend import make_backend
+    >>> lp = build_lp(build_network(load_layout("layouts/pilot-line.yaml")))
+    >>> outcome = run_goal(lp, make_backend(lp), "headroom")
+    >>> outcome.primary, outcome.primary_value > 1.0
+    ('factor', True)
+    """
+    if goal not in GOALS:
+        raise ValueError(f"unknown goal {goal!r}; the goals are {', '.join(GOALS)}")
+    driver = _Driver(model, backend)
+    _reset(driver)
+    if goal == "headroom":
+        return _headroom(driver)
+    if goal == "min-source":
+        return _min_source(driver)
+    return _priority(driver)

@@ -1,0 +1,116 @@
+"""Plan a network: build the LP, run the goal, propagate, explain, verify."""
+
+from __future__ import annotations
+
+from collections import defaultdict
+
+from beamplan.network.behaviour import Behaviour
+from beamplan.network.graph import Network
+from beamplan.optimise.backend import Backend, make_backend
+from beamplan.optimise.explain import binding_constraints, shortfall_limits
+from beamplan.optimise.goals import GoalOutcome, run_goal
+from beamplan.optimise.lp import LpModel, build_lp
+from beamplan.optimise.result import (
+    ElementResult,
+    Flows,
+    Losses,
+    Plan,
+    ScannerResult,
+    SourceResult,
+    propagate,
+    verify,
+)
+
+__all__ = ["MET_RTOL", "plan_network", "solve_model"]
+
+MET_RTOL = 1e-6  # a scanner within this relative distance of its need counts as met
+
+
+def _scanners(network: Network, flows: Flows, source_w: dict[str, float]
+              ) -> tuple[ScannerResult, ...]:
+    out = []
+    for node in network.scanners:
+        delivered = flows.incident_w[node.id]
+        ratio = delivered / node.need_w
+        short = max(node.need_w - delivered, 0.0)
+        limits: tuple[str, ...] = ()
+        if short <= MET_RTOL * node.need_w:
+            status, short = "met", 0.0
+        else:
+            status = "cut off" if delivered <= 1e-9 * node.need_w else "short"
+            limits = shortfall_limits(network, node.id, flows, delivered, source_w)
+        out.append(ScannerResult(node.id, node.need_w, delivered, node.max_w, node.priority,
+                                 ratio - 1.0, short, status, limits))
+    return tuple(out)
+
+
+def _elements(network: Network, flows: Flows) -> tuple[ElementResult, ...]:
+    out = []
+    for node in network.elements:
+        incident = flows.incident_w[node.id]
+        absorbed = flows.absorbed_w[node.id]
+        output = incident - absorbed if node.behaviour is not Behaviour.ABSORB else 0.0
+        margin = None if node.heat_limit_w is None else node.heat_limit_w - absorbed
+        gain = output / incident if incident > 0 else (
+            node.gain_max if node.behaviour is not Behaviour.SPLIT else
+            sum(p.efficiency * p.fraction_max for p in node.ports[:1]))
+        out.append(ElementResult(node.id, node.kind, incident, absorbed, output,
+                                 node.heat_limit_w, margin, flows.settings.get(node.id),
+                                 gain, node.provenance))
+    return tuple(out)
+
+
+def _losses(network: Network, flows: Flows, source_total: float) -> Losses:
+    by_kind: dict[str, float] = defaultdict(float)
+    absorbed = dumped = delivered = 0.0
+    for node in network.nodes:
+        if node.is_scanner:
+            delivered += flows.incident_w[node.id]
+        elif node.behaviour is Behaviour.ABSORB:
+            dumped += flows.absorbed_w[node.id]
+        elif not node.is_source:
+            absorbed += flows.absorbed_w[node.id]
+            by_kind[node.kind] += flows.absorbed_w[node.id]
+    residual = source_total - delivered - absorbed - dumped
+    return Losses(source_total, delivered, absorbed, dumped,
+                  tuple(sorted(by_kind.items(), key=lambda kv: -kv[1])), residual)
+
+
+def solve_model(model: LpModel, backend: Backend, goal: str) -> Plan:
+    """Run ``goal`` on a built model and return the verified :class:`Plan`."""
+    network = model.network
+    outcome: GoalOutcome = run_goal(model, backend, goal)
+    cols = outcome.solution.columns
+    source_w = {sid: float(cols[col]) for sid, col in model.source_col.items()}
+    lp_link = [float(cols[model.link_col[link.index]]) for link in network.links]
+    lp_share = {key: float(cols[col]) for key, col in model.share_col.items()}
+    flows = propagate(network, source_w, lp_link, lp_share)
+    sources = tuple(SourceResult(n.id, n.available_w, flows.incident_w[n.id], n.electrical_w)
+                    for n in network.sources)
+    scanners = _scanners(network, flows, source_w)
+    factor = min((s.delivered_w / s.need_w for s in scanners), default=0.0)
+    status = "met" if all(s.status == "met" for s in scanners) else "short"
+    total = sum(s.output_w for s in sources)
+    plan = Plan(layout=network.name, file=network.file, sha256=network.sha256, goal=goal,
+                status=status, headroom_factor=factor, sources=sources, scanners=scanners,
+                elements=_elements(network, flows), losses=_losses(network, flows, total),
+                binding=binding_constraints(model, outcome, flows),
+                solver=backend.name, solver_version=backend.version, stages=outcome.stages,
+                warnings=tuple(w.format() for w in network.warnings))
+    verify(plan, network)
+    return plan
+
+
+def plan_network(network: Network, goal: str = "headroom", solver: str = "auto") -> Plan:
+    """Build the LP of ``network``, solve ``goal`` and return the verified plan.
+
+    Examples
+    --------
+    >>> from beamplan.layout.loader import load_layout
+    >>> from beamplan.network.graph import build_network
+    >>> plan = plan_network(build_network(load_layout("layouts/pilot-line.yaml")))
+    >>> plan.status, round(plan.headroom_factor, 3)
+    ('met', 1.35)
+    """
+    model = build_lp(network)
+    return solve_model(model, make_backend(model, solver), goal)
