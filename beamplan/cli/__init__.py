@@ -1,0 +1,1 @@
+"""The ``beamplan`` command line: the only layer that prints or exits."""

@@ -1,0 +1,113 @@
+"""The subcommands: ``check`` and ``plan`` (more register themselves here)."""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+from typing import Any
+
+from beamplan import __version__
+from beamplan.errors import ExitCode, UsageError
+
+__all__ = ["register"]
+
+GOALS = ("headroom", "min-source", "priority")
+
+
+def _console(stream: Any = None) -> Any:
+    from rich.console import Console
+
+    return Console(file=stream or sys.stdout, highlight=False,
+                   width=None if (stream or sys.stdout).isatty() else 100)
+
+
+def _existing_file(path: str) -> str:
+    if not os.path.isfile(path):
+        raise UsageError(f"no such layout file: {path!r}")
+    return path
+
+
+def _load_network(path: str) -> Any:
+    from beamplan.layout.loader import load_layout
+    from beamplan.network.graph import build_network
+
+    return build_network(load_layout(_existing_file(path)))
+
+
+def _print_warnings(network: Any) -> None:
+    for warning in network.warnings:
+        sys.stderr.write(warning.format() + "\n")
+
+
+def _check(args: argparse.Namespace) -> int:
+    network = _load_network(args.layout)
+    if not args.quiet:
+        _print_warnings(network)
+        elements = len(network.elements)
+        sys.stdout.write(f"{args.layout}: valid layout '{network.name}': "
+                         f"{len(network.sources)} source(s), {elements} element(s), "
+                         f"{len(network.scanners)} scanner(s), {len(network.links)} link(s), "
+                         f"{len(network.warnings)} warning(s)\n")
+    return int(ExitCode.OK)
+
+
+def _plan(args: argparse.Namespace) -> int:
+    from beamplan.optimise.planner import plan_network
+
+    network = _load_network(args.layout)
+    to_stdout = args.json == "-"
+    if not args.quiet:
+        _print_warnings(network)
+    plan = plan_network(network, args.goal, args.solver)
+    inputs = [args.layout]
+    if args.json:
+        from beamplan.report.document import plan_json
+        from beamplan.report.files import write_atomic
+
+        text = plan_json(plan, __version__)
+        if to_stdout:
+            sys.stdout.write(text)
+            sys.stdout.flush()
+        else:
+            write_atomic(args.json, text, inputs)
+    if args.csv:
+        from beamplan.report.document import write_csv
+
+        write_csv(plan, args.csv, inputs)
+    if not to_stdout and not args.quiet:
+        from beamplan.report.terminal import plan_renderable
+
+        _console().print(plan_renderable(plan, elements=not args.brief))
+    return int(ExitCode.OK if plan.all_met else ExitCode.SHORT)
+
+
+def register(sub: Any) -> None:
+    """Add the subcommands to an argparse subparsers object."""
+    check = sub.add_parser("check", help="validate a layout file and list every problem",
+                           description="Validate a layout: schema, units, beamlines and graph "
+                           "checks. Exit 0 when valid, 1 when not.")
+    check.add_argument("layout", help="the layout file (YAML)")
+    check.add_argument("-q", "--quiet", action="store_true", help="print nothing when valid")
+    check.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    check.set_defaults(handler=_check)
+
+    plan = sub.add_parser("plan", help="optimise the allocation and report it",
+                          description="Choose splitter shares, attenuator settings and source "
+                          "power so that every scanner meets its need; report delivered power, "
+                          "headroom, heat loads, losses and binding constraints. Exit 0 when "
+                          "every need is met, 3 when some scanner falls short.")
+    plan.add_argument("layout", help="the layout file (YAML)")
+    plan.add_argument("-g", "--goal", choices=GOALS, default="headroom",
+                      help="headroom (default): lift every scanner's headroom, lowest first; "
+                      "min-source: least source power that meets every need; priority: serve "
+                      "tier 1 first, then tier 2, ...")
+    plan.add_argument("--json", metavar="PATH", help="write the JSON report ('-' for stdout)")
+    plan.add_argument("--csv", metavar="DIR", help="write one CSV file per table into DIR")
+    plan.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
+                      help="LP solver (default: HiGHS in process, CBC if highspy is missing)")
+    plan.add_argument("--brief", action="store_true", help="leave out the element table")
+    plan.add_argument("-q", "--quiet", action="store_true",
+                      help="no terminal report (files and exit code only)")
+    plan.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    plan.set_defaults(handler=_plan)

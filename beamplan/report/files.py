@@ -1,0 +1,62 @@
+"""Write output files atomically, and never over an input file."""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import tempfile
+from collections.abc import Iterable
+
+from beamplan.errors import OutputError, UsageError
+
+__all__ = ["write_atomic"]
+
+
+def _same_file(a: str, b: str) -> bool:
+    try:
+        return os.path.samefile(a, b)
+    except OSError:
+        return os.path.realpath(a) == os.path.realpath(b)
+
+
+def write_atomic(path: str, text: str, inputs: Iterable[str] = ()) -> None:
+    """Write ``text`` to ``path`` through a temporary file and a rename.
+
+    Raises
+    ------
+    UsageError
+        ``path`` is one of ``inputs`` (beamplan never writes over an input).
+    OutputError
+        The file cannot be written.
+
+    Examples
+    --------
+    >>> import os, tempfile
+    >>> folder = tempfile.mkdtemp()
+    >>> target = os.path.join(folder, "out.txt")
+    >>> write_atomic(target, "hello\\n")
+    >>> open(target).read()
+    'hello\\n'
+    >>> write_atomic(target, "x", inputs=[target])
+    Traceback (most recent call last):
+    ...
+    beamplan.errors.UsageError: refusing to write over the input file ...
+    """
+    for source in inputs:
+        if os.path.exists(path) and _same_file(path, source):
+            raise UsageError(f"refusing to write over the input file {path!r}; "
+                             "choose another output name")
+    folder = os.path.dirname(os.path.abspath(path))
+    try:
+        handle, temp = tempfile.mkstemp(prefix=".beamplan-", suffix=".tmp", dir=folder)
+    except OSError as exc:
+        raise OutputError(f"cannot write {path!r}: {exc.strerror or exc}") from exc
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
+            out.write(text)
+        os.chmod(temp, 0o644)
+        os.replace(temp, path)
+    except OSError as exc:
+        with contextlib.suppress(OSError):
+            os.unlink(temp)
+        raise OutputError(f"cannot write {path!r}: {exc.strerror or exc}") from exc

@@ -1,0 +1,167 @@
+"""The plan report for a terminal, as rich renderables (the command line prints them).
+
+Readable at 80 columns and without colour (rich honours ``NO_COLOR``):
+status words carry the meaning, colour only repeats it.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+from rich.console import Group
+from rich.table import Table
+from rich.text import Text
+
+from beamplan.errors import Diagnostic
+from beamplan.optimise.result import ElementResult, Plan
+from beamplan.report import CAUTION
+from beamplan.units import format_power
+
+__all__ = ["diagnostics_text", "plan_renderable"]
+
+_STATUS_STYLE = {"met": "green", "short": "bold red", "cut off": "bold red"}
+
+
+def _pct(value: float) -> str:
+    return f"{value * 100:+.1f}%"
+
+
+def _setting(element: ElementResult) -> str:
+    value = element.setting
+    if value is None:
+        return ""
+    if isinstance(value, tuple):
+        return " ".join(f"{name} {fraction:.0%}" for name, fraction in value)
+    return f"T {value:.1%}"
+
+
+def _header(plan: Plan) -> Table:
+    grid = Table.grid(padding=(0, 2))
+    grid.add_column(style="bold")
+    grid.add_column()
+    status = Text(plan.status.upper(), style=_STATUS_STYLE.get(plan.status, ""))
+    short = [s for s in plan.scanners if s.status != "met"]
+    if short:
+        status.append(f"  ({len(short)} of {len(plan.scanners)} scanners short)")
+    grid.add_row("layout", f"{plan.layout}  ({plan.file})")
+    grid.add_row("goal", plan.goal)
+    grid.add_row("status", status)
+    grid.add_row("source", f"{format_power(plan.source_used_w)} used of "
+                           f"{format_power(plan.source_available_w)} available")
+    grid.add_row("delivered", f"{format_power(plan.delivered_w)} at IF, "
+                              f"overall efficiency {plan.efficiency:.1%}")
+    grid.add_row("headroom", f"factor {plan.headroom_factor:.4f} (lowest scanner "
+                             f"{_pct(plan.headroom_factor - 1)})")
+    electrical = [s.electrical_w for s in plan.sources if s.electrical_w]
+    if electrical and plan.delivered_w > 0:
+        per_kw = sum(electrical) / plan.delivered_w
+        grid.add_row("wall plug", f"{per_kw:.0f} kW electrical per kW delivered at IF")
+    return grid
+
+
+def _scanners(plan: Plan) -> Table:
+    table = Table(title="Scanners (IF power)", title_justify="left", expand=False)
+    for name, justify in (("scanner", "left"), ("need", "right"), ("delivered", "right"),
+                          ("headroom", "right"), ("max", "right"), ("status", "left")):
+        table.add_column(name, justify=justify)  # type: ignore[arg-type]
+    for s in plan.scanners:
+        table.add_row(s.id, format_power(s.need_w), format_power(s.delivered_w),
+                      _pct(s.headroom), format_power(s.max_w) if s.max_w is not None else "-",
+                      Text(s.status if s.status != "short" else
+                           f"short {format_power(s.shortfall_w)}",
+                           style=_STATUS_STYLE.get(s.status, "")))
+    return table
+
+
+def _elements(plan: Plan) -> Table:
+    table = Table(title="Elements", title_justify="left")
+    for name, justify in (("element", "left"), ("kind", "left"), ("in", "right"),
+                          ("absorbed", "right"), ("out", "right"), ("heat limit", "right"),
+                          ("setting", "left")):
+        table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
+    for e in plan.elements:
+        if e.heat_limit_w is None:
+            limit = "-"
+        else:
+            used = e.absorbed_w / e.heat_limit_w if e.heat_limit_w > 0 else 1.0
+            limit = f"{format_power(e.heat_limit_w)} {used:.0%}"
+        style = "yellow" if e.heat_margin_w is not None and e.heat_margin_w <= \
+            1e-6 * max(e.heat_limit_w or 1.0, 1.0) else ""
+        table.add_row(e.id, e.kind, format_power(e.incident_w), format_power(e.absorbed_w),
+                      format_power(e.output_w), Text(limit, style=style), _setting(e))
+    return table
+
+
+def _losses(plan: Plan) -> Table:
+    table = Table(title="Where the source power goes", title_justify="left")
+    table.add_column("destination")
+    table.add_column("power", justify="right")
+    table.add_column("share", justify="right")
+    total = plan.losses.source_w or 1.0
+    rows = [("delivered to scanners", plan.losses.delivered_w)]
+    rows += [(f"absorbed in {kind}s", value) for kind, value in plan.losses.by_kind]
+    rows.append(("dumped", plan.losses.dumped_w))
+    for name, value in rows:
+        table.add_row(name, format_power(value), f"{value / total:.1%}")
+    table.add_row(Text("source output", style="bold"), format_power(plan.losses.source_w),
+                  "100.0%")
+    return table
+
+
+def _binding(plan: Plan) -> Table | Text:
+    if not plan.binding:
+        return Text("No constraint binds the primary goal.")
+    table = Table(title="Binding constraints (shadow prices)", title_justify="left")
+    table.add_column("constraint", overflow="fold")
+    table.add_column("what relaxing it gives", overflow="fold")
+    for b in plan.binding:
+        table.add_row(b.description, b.meaning)
+    return table
+
+
+def _shortfalls(plan: Plan) -> list[Any]:
+    out: list[Any] = []
+    for s in plan.scanners:
+        if s.status == "met":
+            continue
+        text = Text(f"{s.id} is short by {format_power(s.shortfall_w)}: ", style="bold")
+        text.append("; ".join(s.limits))
+        out.append(text)
+    return out
+
+
+def plan_renderable(plan: Plan, *, elements: bool = True) -> Group:
+    """The whole plan report as one rich renderable.
+
+    Examples
+    --------
+    >>> import io, beamplan
+    >>> from rich.console import Console
+    >>> console = Console(file=io.StringIO(), width=80, color_system=None)
+    >>> console.print(plan_renderable(beamplan.plan("layouts/pilot-line.yaml")))
+    >>> "litho-p1" in console.file.getvalue()
+    True
+    """
+    parts: list[Any] = [_header(plan), Text(""), _scanners(plan)]
+    parts += _shortfalls(plan)
+    if elements:
+        parts += [Text(""), _elements(plan)]
+    parts += [Text(""), _losses(plan), Text(""), _binding(plan)]
+    if plan.warnings:
+        parts.append(Text(f"{len(plan.warnings)} warning(s) from the layout check; run "
+                          "'beamplan check' to see them.", style="dim"))
+    parts.append(Text(CAUTION, style="dim italic"))
+    return Group(*parts)
+
+
+def diagnostics_text(diagnostics: Sequence[Diagnostic]) -> str:
+    """Every diagnostic on its own line, errors and warnings in file order.
+
+    Examples
+    --------
+    >>> from beamplan.errors import Location
+    >>> print(diagnostics_text([Diagnostic("error", "x", "bad", Location("f", 1, 2))]))
+    f:1:2: error: bad
+    """
+    return "\n".join(d.format() for d in diagnostics)
