@@ -1,0 +1,1 @@
+"""Physics models for beamplan: pure functions in SI units."""

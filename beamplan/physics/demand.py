@@ -1,0 +1,492 @@
+"""Scanner throughput model: EUV power needed at IF for a dose and a wafer rate.
+
+Method (common practice, no single source). A slit of length ``L`` (the field width,
+across the scan) and height ``H`` (along the scan) sweeps each field at speed ``v``.
+A point on the wafer sees the slit for ``H / v`` seconds at an irradiance
+``P_wafer / (L H)``, so it receives the dose::
+
+    D = P_wafer / (L H) × H / v = P_wafer / (L v)    =>    v = P_wafer / (D L)
+
+The slit height cancels from the dose; it only adds overscan to the scan length. The
+scan speed is capped by the stage, ``v = min(v_stage, P_wafer / (D L))``, and::
+
+    time per wafer = wafer overhead + N_fields × (field overhead + scan length / v)
+    scan length    = field length + slit height
+    P_wafer        = P_IF × (1 − m) × T_IF→wafer
+    T_IF→wafer     = R_mirror^n × R_mask × T_pellicle² × other losses
+
+Dose-control margin ``m``: the dose controller holds back a fraction ``m`` of the
+power delivered at IF (it regulates by attenuating), so only ``(1 − m) P_IF`` exposes.
+The need at IF is therefore scaled by ``1 / (1 − m)``, not by ``(1 + m)``; this
+keeps :func:`required_if_power` and :func:`throughput_at_power` exact inverses.
+
+SI units throughout: m, s, W, J/m² (1 mJ/cm² = 10 J/m²).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Literal
+
+__all__ = [
+    "DemandError",
+    "DemandResult",
+    "DoseSource",
+    "Limit",
+    "ScannerTool",
+    "ThroughputResult",
+    "effective_dose",
+    "required_if_power",
+    "stage_limit_if_power_w",
+    "stage_limited_wph",
+    "throughput_at_power",
+    "time_per_wafer_s",
+]
+
+Limit = Literal["power", "stage"]
+DoseSource = Literal["recipe", "stochastic floor"]
+
+_SECONDS_PER_HOUR = 3600.0
+_STAGE_SLACK = 1e-9  # relative slack when a target sits exactly on the stage limit
+
+
+class DemandError(ValueError):
+    """A throughput target that the stage cannot reach at any source power.
+
+    Attributes
+    ----------
+    requested_wph : float
+        The target throughput in wafers per hour.
+    stage_limited_wph : float
+        The most the tool reaches, with the stage at its maximum scan speed.
+    """
+
+    def __init__(self, message: str, *, requested_wph: float, stage_limited_wph: float) -> None:
+        super().__init__(message)
+        self.requested_wph = requested_wph
+        self.stage_limited_wph = stage_limited_wph
+
+
+@dataclass(frozen=True)
+class ScannerTool:
+    """One scanner: exposure geometry, timing, stage and IF-to-wafer optical train.
+
+    Defaults are illustrative round numbers for a 0.33-NA-class full-field tool
+    (common practice, no source; from memory where noted), not a measured machine.
+
+    Parameters
+    ----------
+    field_width_m : float
+        Field width across the scan, 26 mm. It is also the slit length.
+    field_length_m : float
+        Field length along the scan, 33 mm (16.5 mm for a half field).
+    fields_per_wafer : int
+        Exposures per 300 mm wafer, 96.
+    slit_height_m : float
+        Slit height along the scan, 2 mm. From memory: EUV ring-field slits are a
+        few mm high (the 8 mm often quoted is a DUV figure). It only adds overscan.
+    wafer_overhead_s : float
+        Per-wafer time not spent in fields (exchange, alignment), 9 s.
+    field_overhead_s : float
+        Per-field time not spent scanning (step, accelerate, settle), 0.05 s.
+    stage_max_speed_m_s : float
+        Maximum wafer-stage scan speed, 0.8 m/s.
+    mirror_reflections : int
+        Multilayer mirror reflections from IF to wafer, mask excluded, 10
+        (about 11 with the mask; from memory).
+    mirror_reflectivity : float
+        Reflectivity of each multilayer mirror, 0.70 (best measured Mo/Si, about 0.70).
+    mask_reflectivity : float
+        Mean reflectivity of the patterned mask, 0.65.
+    pellicle_transmission : float
+        Pellicle single-pass transmission, 0.88 (crossed twice; 0.83-0.90 from memory).
+    other_losses_factor : float
+        Any further transmission factor in (0, 1] (filters, obscurations), 1.0.
+    dose_control_margin : float
+        Fraction of IF power held back for dose control, in [0, 1), 0.10.
+    """
+
+    field_width_m: float = 0.026
+    field_length_m: float = 0.033
+    fields_per_wafer: int = 96
+    slit_height_m: float = 0.002
+    wafer_overhead_s: float = 9.0
+    field_overhead_s: float = 0.05
+    stage_max_speed_m_s: float = 0.8
+    mirror_reflections: int = 10
+    mirror_reflectivity: float = 0.70
+    mask_reflectivity: float = 0.65
+    pellicle_transmission: float = 0.88
+    other_losses_factor: float = 1.0
+    dose_control_margin: float = 0.10
+
+    def __post_init__(self) -> None:
+        for name in ("field_width_m", "field_length_m", "slit_height_m", "stage_max_speed_m_s"):
+            value = getattr(self, name)
+            if not (value > 0.0 and math.isfinite(value)):
+                raise ValueError(f"{name} must be positive and finite, got {value!r}")
+        for name in ("wafer_overhead_s", "field_overhead_s"):
+            value = getattr(self, name)
+            if not (value >= 0.0 and math.isfinite(value)):
+                raise ValueError(f"{name} must be non-negative and finite, got {value!r}")
+        for name, least in (("fields_per_wafer", 1), ("mirror_reflections", 0)):
+            value = getattr(self, name)
+            if isinstance(value, bool) or not isinstance(value, int) or value < least:
+                raise ValueError(f"{name} must be an integer >= {least}, got {value!r}")
+        for name in ("mirror_reflectivity", "mask_reflectivity", "pellicle_transmission"):
+            value = getattr(self, name)
+            if not 0.0 < value <= 1.0:
+                raise ValueError(f"{name} must be in (0, 1], got {value!r}")
+        if not 0.0 < self.other_losses_factor <= 1.0:
+            raise ValueError(
+                f"other_losses_factor must be in (0, 1], got {self.other_losses_factor!r}"
+            )
+        if not 0.0 <= self.dose_control_margin < 1.0:
+            raise ValueError(
+                f"dose_control_margin must be in [0, 1), got {self.dose_control_margin!r}"
+            )
+
+    @property
+    def slit_length_m(self) -> float:
+        """Slit length across the scan: the field width."""
+        return self.field_width_m
+
+    @property
+    def scan_length_m(self) -> float:
+        """Stage travel per field: field length plus slit height (overscan)."""
+        return self.field_length_m + self.slit_height_m
+
+    def transmission_if_to_wafer(self) -> float:
+        """Optical transmission from IF to wafer, R^n × R_mask × T_pellicle² × other.
+
+        Method: product of the train's factors (common practice); the pellicle is
+        crossed twice, on the way to the mask and back. The dose-control margin is
+        not part of it.
+
+        Returns
+        -------
+        float
+            Transmission in (0, 1].
+
+        Examples
+        --------
+        >>> round(ScannerTool().transmission_if_to_wafer(), 6)
+        0.014219
+        """
+        return (
+            self.mirror_reflectivity**self.mirror_reflections
+            * self.mask_reflectivity
+            * self.pellicle_transmission**2
+            * self.other_losses_factor
+        )
+
+
+@dataclass(frozen=True)
+class DemandResult:
+    """Power needed at IF for a dose and a throughput target.
+
+    Attributes
+    ----------
+    if_power_w : float
+        Power needed at IF, dose-control margin included.
+    wafer_power_w : float
+        Power that reaches the wafer during the scan.
+    scan_speed_m_s : float
+        Scan speed that meets the target.
+    time_per_wafer_s : float
+        Time budget per wafer, 3600 / wph.
+    scan_time_per_field_s : float
+        Scan time per field left after the overheads.
+    stage_limited_wph : float
+        Most the tool reaches at any power (stage at full speed).
+    limit : {"power", "stage"}
+        ``"power"`` when the need is set by the source (stage below its maximum),
+        ``"stage"`` when the target sits on the stage limit.
+    """
+
+    if_power_w: float
+    wafer_power_w: float
+    scan_speed_m_s: float
+    time_per_wafer_s: float
+    scan_time_per_field_s: float
+    stage_limited_wph: float
+    limit: Limit
+
+
+@dataclass(frozen=True)
+class ThroughputResult:
+    """Throughput of a tool at a given IF power.
+
+    Attributes
+    ----------
+    wafers_per_hour : float
+        Throughput in wafers per hour (0 at zero power).
+    scan_speed_m_s : float
+        Scan speed, min(stage maximum, power-limited speed).
+    time_per_wafer_s : float
+        Time per wafer (``inf`` at zero power).
+    wafer_power_w : float
+        Exposure power reaching the wafer.
+    stage_limit_if_power_w : float
+        IF power above which the stage limits and more power buys nothing.
+    limit : {"power", "stage"}
+        Which of the two sets the scan speed.
+    """
+
+    wafers_per_hour: float
+    scan_speed_m_s: float
+    time_per_wafer_s: float
+    wafer_power_w: float
+    stage_limit_if_power_w: float
+    limit: Limit
+
+
+def _check_dose(dose_j_m2: float) -> None:
+    if not (dose_j_m2 > 0.0 and math.isfinite(dose_j_m2)):
+        raise ValueError(f"dose_j_m2 must be positive and finite, got {dose_j_m2!r}")
+
+
+def time_per_wafer_s(tool: ScannerTool, scan_speed_m_s: float) -> float:
+    """Time to expose one wafer at a scan speed.
+
+    Method: wafer overhead + N_fields × (field overhead + scan length / v)
+    (common practice, no source).
+
+    Parameters
+    ----------
+    tool : ScannerTool
+        The scanner.
+    scan_speed_m_s : float
+        Scan speed in m/s, > 0.
+
+    Returns
+    -------
+    float
+        Time per wafer in s.
+
+    Examples
+    --------
+    >>> round(time_per_wafer_s(ScannerTool(), 0.8), 4)
+    18.0
+    """
+    if not scan_speed_m_s > 0.0:
+        raise ValueError(f"scan_speed_m_s must be positive, got {scan_speed_m_s!r}")
+    per_field_s = tool.field_overhead_s + tool.scan_length_m / scan_speed_m_s
+    return tool.wafer_overhead_s + tool.fields_per_wafer * per_field_s
+
+
+def stage_limited_wph(tool: ScannerTool) -> float:
+    """Most wafers per hour the tool reaches at any power: the stage at full speed.
+
+    Method: 3600 / time per wafer at the stage's maximum scan speed (common practice).
+
+    Parameters
+    ----------
+    tool : ScannerTool
+        The scanner.
+
+    Returns
+    -------
+    float
+        Stage-limited throughput in wafers per hour.
+
+    Examples
+    --------
+    >>> round(stage_limited_wph(ScannerTool()), 3)
+    200.0
+    """
+    return _SECONDS_PER_HOUR / time_per_wafer_s(tool, tool.stage_max_speed_m_s)
+
+
+def stage_limit_if_power_w(tool: ScannerTool, dose_j_m2: float) -> float:
+    """IF power at which the power-limited scan speed reaches the stage maximum.
+
+    Method: invert v = (1 − m) T P_IF / (D L) at v = v_stage (common practice).
+
+    Parameters
+    ----------
+    tool : ScannerTool
+        The scanner.
+    dose_j_m2 : float
+        Dose at the wafer in J/m², > 0.
+
+    Returns
+    -------
+    float
+        IF power in W; more than this buys no throughput.
+
+    Examples
+    --------
+    >>> round(stage_limit_if_power_w(ScannerTool(), 300.0), 1)
+    487.6
+    """
+    _check_dose(dose_j_m2)
+    wafer_power_w = dose_j_m2 * tool.slit_length_m * tool.stage_max_speed_m_s
+    return wafer_power_w / _if_to_exposure(tool)
+
+
+def _if_to_exposure(tool: ScannerTool) -> float:
+    return (1.0 - tool.dose_control_margin) * tool.transmission_if_to_wafer()
+
+
+def required_if_power(tool: ScannerTool, dose_j_m2: float, wafers_per_hour: float) -> DemandResult:
+    """Power needed at IF to expose ``wafers_per_hour`` at ``dose_j_m2``.
+
+    Method (common practice, no source): the time budget 3600 / wph, less the
+    overheads, leaves a scan time per field ``t = (3600/wph − T_wafer)/N − T_field``;
+    then ``v = scan length / t``, ``P_wafer = D L v`` (from ``D = P_wafer / (L v)``)
+    and ``P_IF = P_wafer / ((1 − m) T_IF→wafer)``.
+
+    Parameters
+    ----------
+    tool : ScannerTool
+        The scanner.
+    dose_j_m2 : float
+        Dose at the wafer in J/m², > 0 (see :func:`effective_dose`).
+    wafers_per_hour : float
+        Throughput target, > 0.
+
+    Returns
+    -------
+    DemandResult
+        The need at IF, the scan speed, the time budget and the limit.
+
+    Raises
+    ------
+    DemandError
+        If the target exceeds the stage-limited throughput (no power reaches it).
+    ValueError
+        If the dose or the target is not positive.
+
+    Examples
+    --------
+    >>> r = required_if_power(ScannerTool(), 300.0, 150.0)
+    >>> round(r.if_power_w, 1), round(r.scan_speed_m_s, 4), r.limit
+    (200.8, 0.3294, 'power')
+    >>> try:
+    ...     required_if_power(ScannerTool(), 300.0, 250.0)
+    ... except DemandError as err:
+    ...     print(round(err.stage_limited_wph, 2))
+    200.0
+    """
+    _check_dose(dose_j_m2)
+    if not (wafers_per_hour > 0.0 and math.isfinite(wafers_per_hour)):
+        raise ValueError(f"wafers_per_hour must be positive and finite, got {wafers_per_hour!r}")
+    max_wph = stage_limited_wph(tool)
+    if wafers_per_hour > max_wph * (1.0 + _STAGE_SLACK):
+        raise DemandError(
+            f"{wafers_per_hour:g} wph is beyond the stage limit: at "
+            f"{tool.stage_max_speed_m_s:g} m/s the tool reaches at most {max_wph:.2f} wph "
+            "at any source power",
+            requested_wph=wafers_per_hour,
+            stage_limited_wph=max_wph,
+        )
+    budget_s = _SECONDS_PER_HOUR / wafers_per_hour
+    scan_time_s = (budget_s - tool.wafer_overhead_s) / tool.fields_per_wafer - tool.field_overhead_s
+    speed_m_s = tool.scan_length_m / scan_time_s
+    limit: Limit = "power"
+    if speed_m_s >= tool.stage_max_speed_m_s * (1.0 - _STAGE_SLACK):
+        speed_m_s = tool.stage_max_speed_m_s
+        limit = "stage"
+    wafer_power_w = dose_j_m2 * tool.slit_length_m * speed_m_s
+    return DemandResult(
+        if_power_w=wafer_power_w / _if_to_exposure(tool),
+        wafer_power_w=wafer_power_w,
+        scan_speed_m_s=speed_m_s,
+        time_per_wafer_s=budget_s,
+        scan_time_per_field_s=scan_time_s,
+        stage_limited_wph=max_wph,
+        limit=limit,
+    )
+
+
+def throughput_at_power(tool: ScannerTool, dose_j_m2: float, if_power_w: float) -> ThroughputResult:
+    """Wafers per hour a tool exposes at ``dose_j_m2`` with ``if_power_w`` at IF.
+
+    Method (common practice, no source): ``P_wafer = (1 − m) T P_IF``, scan speed
+    ``v = min(v_stage, P_wafer / (D L))``, then 3600 / time per wafer. The inverse
+    of :func:`required_if_power` wherever the stage does not limit.
+
+    Parameters
+    ----------
+    tool : ScannerTool
+        The scanner.
+    dose_j_m2 : float
+        Dose at the wafer in J/m², > 0.
+    if_power_w : float
+        Power delivered at IF in W, >= 0.
+
+    Returns
+    -------
+    ThroughputResult
+        Throughput, scan speed and which limit ("stage" or "power") sets it.
+
+    Examples
+    --------
+    >>> r = throughput_at_power(ScannerTool(), 300.0, 200.0)
+    >>> round(r.wafers_per_hour, 2), r.limit
+    (149.75, 'power')
+    >>> throughput_at_power(ScannerTool(), 300.0, 1000.0).limit
+    'stage'
+    """
+    _check_dose(dose_j_m2)
+    if not (if_power_w >= 0.0 and math.isfinite(if_power_w)):
+        raise ValueError(f"if_power_w must be non-negative and finite, got {if_power_w!r}")
+    wafer_power_w = if_power_w * _if_to_exposure(tool)
+    power_speed_m_s = wafer_power_w / (dose_j_m2 * tool.slit_length_m)
+    stage_power_w = stage_limit_if_power_w(tool, dose_j_m2)
+    limit: Limit = "power"
+    speed_m_s = power_speed_m_s
+    if power_speed_m_s >= tool.stage_max_speed_m_s:
+        speed_m_s = tool.stage_max_speed_m_s
+        limit = "stage"
+    if speed_m_s == 0.0:
+        return ThroughputResult(0.0, 0.0, math.inf, 0.0, stage_power_w, "power")
+    wafer_time_s = time_per_wafer_s(tool, speed_m_s)
+    return ThroughputResult(
+        wafers_per_hour=_SECONDS_PER_HOUR / wafer_time_s,
+        scan_speed_m_s=speed_m_s,
+        time_per_wafer_s=wafer_time_s,
+        wafer_power_w=wafer_power_w,
+        stage_limit_if_power_w=stage_power_w,
+        limit=limit,
+    )
+
+
+def effective_dose(
+    recipe_dose_j_m2: float, stochastic_floor_j_m2: float
+) -> tuple[float, DoseSource]:
+    """Dose to expose with: the larger of the recipe dose and the stochastic floor.
+
+    Method: max(recipe, floor), common practice; the floor comes from
+    :func:`beamplan.physics.photons.stochastic_dose_floor_j_m2` (Poisson shot
+    noise). A tie is reported as ``"recipe"``.
+
+    Parameters
+    ----------
+    recipe_dose_j_m2 : float
+        Recipe dose in J/m², > 0.
+    stochastic_floor_j_m2 : float
+        Stochastic dose floor in J/m², >= 0.
+
+    Returns
+    -------
+    tuple of (float, {"recipe", "stochastic floor"})
+        The dose in J/m² and which of the two set it.
+
+    Examples
+    --------
+    >>> effective_dose(300.0, 324.7)
+    (324.7, 'stochastic floor')
+    >>> effective_dose(600.0, 324.7)
+    (600.0, 'recipe')
+    """
+    _check_dose(recipe_dose_j_m2)
+    if not (stochastic_floor_j_m2 >= 0.0 and math.isfinite(stochastic_floor_j_m2)):
+        raise ValueError(
+            f"stochastic_floor_j_m2 must be non-negative and finite, got {stochastic_floor_j_m2!r}"
+        )
+    if stochastic_floor_j_m2 > recipe_dose_j_m2:
+        return stochastic_floor_j_m2, "stochastic floor"
+    return recipe_dose_j_m2, "recipe"
