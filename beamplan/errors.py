@@ -168,5 +168,5 @@ def did_you_mean(word: str, choices: Sequence[str] | Iterable[str]) -> str:
     >>> did_you_mean("zzz", ["m1"])
     ''
     """
-    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.6)
+    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.5)
     return f"did you mean {close[0]!r}?" if close else ""

@@ -124,7 +124,7 @@ DIMENSIONS: dict[str, Dimension] = {
         Dimension("rate", "1/h", "1 / [time]",
                   {"wph": 1.0, "/h": 1.0, "1/h": 1.0, "per hour": 1.0}, "150 wph"),
         Dimension("magnetic field", "T", "[mass] / [current] / [time] ** 2",
-                  {"T": 1.0, "mT": 1e-3, "kG": 0.1, "G": 1e-4}, "0.9 T"),
+                  {"T": 1.0, "mT": 1e-3}, "0.9 T"),
         Dimension("electron energy", "eV", "[mass] * [length] ** 2 / [time] ** 2",
                   {"eV": 1.0, "keV": 1e3, "MeV": 1e6, "GeV": 1e9}, "1 GeV"),
         Dimension("absorption", "1/m", "1 / [length]",
@@ -136,11 +136,13 @@ DIMENSIONS: dict[str, Dimension] = {
 }
 
 # pint names for the non-SI-looking spellings in the table, for the cross-check.
-PINT_SPELLING = {"wph": "1/hour", "/h": "1/hour", "1/h": "1/hour", "per hour": "1/hour",
-                 "A": "angstrom", "Å": "angstrom", "°": "degree", "/m": "1/m",
-                 "/um": "1/um", "/µm": "1/µm", "/nm": "1/nm", "T": "tesla", "mT": "millitesla",
-                 "G": "gauss", "kG": "kilogauss", "ubar": "microbar", "µbar": "microbar",
-                 "mtorr": "millitorr", "mTorr": "millitorr", "torr": "torr"}
+PINT_SPELLING = {
+    "wph": "1/hour", "/h": "1/hour", "1/h": "1/hour", "per hour": "1/hour",
+    "A": "angstrom", "Å": "angstrom", "°": "degree",
+    "/m": "1/m", "/um": "1/um", "/µm": "1/µm", "/nm": "1/nm",
+    "T": "tesla", "mT": "millitesla", "ubar": "microbar", "µbar": "microbar",
+    "mtorr": "millitorr", "mTorr": "millitorr", "torr": "torr", "Torr": "torr",
+}
 
 _OFFSET_TEMPERATURE = {"degC": 273.15, "°C": 273.15, "C": 273.15, "celsius": 273.15}
 
@@ -160,7 +162,7 @@ def _fast_parse(text: str, dim: Dimension) -> float | None:
     factor = dim.units.get(unit)
     if factor is None:
         return None
-    return number * factor
+    return float(f"{number * factor:.15g}")  # 95 % is 0.95, not 0.9500000000000001
 
 
 def _pint_parse(text: str, dim: Dimension) -> float:
@@ -185,9 +187,25 @@ def _pint_parse(text: str, dim: Dimension) -> float:
         value = quantity.to(target).magnitude
     except Exception as exc:
         got = str(quantity.dimensionality) or "a pure number"
-        raise UnitError(f"{text!r} is not a {dim.name} (its dimension is {got})",
+        raise UnitError(f"{text!r} is not {_article(dim.name)} (its dimension is {got})",
                         f"write it in {dim.si_unit}, e.g. '{dim.example}'") from exc
     return float(value)
+
+
+def _article(word: str) -> str:
+    return f"an {word}" if word[0] in "aeiou" else f"a {word}"
+
+
+def _other_dimension(text: str, dim: Dimension) -> None:
+    """Raise a clear error when the unit belongs to another dimension of the table."""
+    match = _QUANTITY_RE.match(text)
+    if match is None or not match.group(2):
+        return
+    unit = match.group(2)
+    for other in DIMENSIONS.values():
+        if other is not dim and unit in other.units and unit not in dim.units:
+            raise UnitError(f"{text!r} is {_article(other.name)}, not {_article(dim.name)}",
+                            f"write it in {dim.si_unit}, e.g. '{dim.example}'")
 
 
 def parse_quantity(value: Any, dimension: str, plain_unit: str | None = None) -> float:
@@ -235,6 +253,7 @@ def parse_quantity(value: Any, dimension: str, plain_unit: str | None = None) ->
     elif isinstance(value, str):
         parsed = _fast_parse(value, dim)
         if parsed is None:
+            _other_dimension(value, dim)
             if not _QUANTITY_RE.match(value):
                 raise UnitError(f"expected a {dim.name}, got {value!r}",
                                 f"write a number and a unit, e.g. '{dim.example}'")

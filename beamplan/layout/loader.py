@@ -223,6 +223,7 @@ def parse_layout(doc: YamlDocument) -> Layout:
     ... scanners: {s1: {power: 300 W}}
     ... beamlines: ["src -> m1 -> s1"]
     ... '''
+    >>> from beamplan.layout.yamlpos import parse_yaml
     >>> lay = parse_layout(parse_yaml(text, "tiny.yaml"))
     >>> [link.label for link in lay.links]
     ['src -> m1', 'm1 -> s1']

@@ -35,7 +35,8 @@ def write_atomic(path: str, text: str, inputs: Iterable[str] = ()) -> None:
     >>> folder = tempfile.mkdtemp()
     >>> target = os.path.join(folder, "out.txt")
     >>> write_atomic(target, "hello\\n")
-    >>> open(target).read()
+    >>> with open(target) as handle:
+    ...     handle.read()
     'hello\\n'
     >>> write_atomic(target, "x", inputs=[target])
     Traceback (most recent call last):

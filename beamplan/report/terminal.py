@@ -9,6 +9,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import Any
 
+from rich import box
 from rich.console import Group
 from rich.table import Table
 from rich.text import Text
@@ -32,8 +33,13 @@ def _setting(element: ElementResult) -> str:
     if value is None:
         return ""
     if isinstance(value, tuple):
-        return " ".join(f"{name} {fraction:.0%}" for name, fraction in value)
-    return f"T {value:.1%}"
+        return "  ".join(f"{name} {fraction:.1%}" for name, fraction in value)
+    return f"transmission {value:.1%}"
+
+
+def _table(title: str) -> Table:
+    return Table(title=title, title_justify="left", box=box.SIMPLE_HEAD, padding=(0, 1),
+                 title_style="bold")
 
 
 def _header(plan: Plan) -> Table:
@@ -61,7 +67,7 @@ def _header(plan: Plan) -> Table:
 
 
 def _scanners(plan: Plan) -> Table:
-    table = Table(title="Scanners (IF power)", title_justify="left", expand=False)
+    table = _table("Scanners (IF power)")
     for name, justify in (("scanner", "left"), ("need", "right"), ("delivered", "right"),
                           ("headroom", "right"), ("max", "right"), ("status", "left")):
         table.add_column(name, justify=justify)  # type: ignore[arg-type]
@@ -75,26 +81,39 @@ def _scanners(plan: Plan) -> Table:
 
 
 def _elements(plan: Plan) -> Table:
-    table = Table(title="Elements", title_justify="left")
+    table = _table("Elements (power in, absorbed and out; heat limit and its use)")
     for name, justify in (("element", "left"), ("kind", "left"), ("in", "right"),
                           ("absorbed", "right"), ("out", "right"), ("heat limit", "right"),
-                          ("setting", "left")):
+                          ("use", "right")):
         table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
     for e in plan.elements:
-        if e.heat_limit_w is None:
-            limit = "-"
-        else:
+        limit = use = "-"
+        style = ""
+        if e.heat_limit_w is not None:
+            limit = format_power(e.heat_limit_w)
             used = e.absorbed_w / e.heat_limit_w if e.heat_limit_w > 0 else 1.0
-            limit = f"{format_power(e.heat_limit_w)} {used:.0%}"
-        style = "yellow" if e.heat_margin_w is not None and e.heat_margin_w <= \
-            1e-6 * max(e.heat_limit_w or 1.0, 1.0) else ""
+            use = f"{used:.0%}"
+            style = "bold yellow" if used >= 1.0 - 1e-6 else ""
         table.add_row(e.id, e.kind, format_power(e.incident_w), format_power(e.absorbed_w),
-                      format_power(e.output_w), Text(limit, style=style), _setting(e))
+                      format_power(e.output_w), limit, Text(use, style=style))
+    return table
+
+
+def _settings(plan: Plan) -> Table | None:
+    chosen = [e for e in plan.elements if e.setting is not None]
+    if not chosen:
+        return None
+    table = _table("Settings chosen")
+    table.add_column("element")
+    table.add_column("kind")
+    table.add_column("setting", overflow="fold")
+    for e in chosen:
+        table.add_row(e.id, e.kind, _setting(e))
     return table
 
 
 def _losses(plan: Plan) -> Table:
-    table = Table(title="Where the source power goes", title_justify="left")
+    table = _table("Where the source power goes")
     table.add_column("destination")
     table.add_column("power", justify="right")
     table.add_column("share", justify="right")
@@ -112,9 +131,9 @@ def _losses(plan: Plan) -> Table:
 def _binding(plan: Plan) -> Table | Text:
     if not plan.binding:
         return Text("No constraint binds the primary goal.")
-    table = Table(title="Binding constraints (shadow prices)", title_justify="left")
+    table = _table("Binding constraints (shadow prices)")
     table.add_column("constraint", overflow="fold")
-    table.add_column("what relaxing it gives", overflow="fold")
+    table.add_column("marginal value", overflow="fold")
     for b in plan.binding:
         table.add_row(b.description, b.meaning)
     return table
@@ -147,6 +166,9 @@ def plan_renderable(plan: Plan, *, elements: bool = True) -> Group:
     parts += _shortfalls(plan)
     if elements:
         parts += [Text(""), _elements(plan)]
+    settings = _settings(plan)
+    if settings is not None:
+        parts += [Text(""), settings]
     parts += [Text(""), _losses(plan), Text(""), _binding(plan)]
     if plan.warnings:
         parts.append(Text(f"{len(plan.warnings)} warning(s) from the layout check; run "
