@@ -18,8 +18,7 @@ GOALS = ("headroom", "min-source", "priority")
 def _console(stream: Any = None) -> Any:
     from rich.console import Console
 
-    return Console(file=stream or sys.stdout, highlight=False,
-                   width=None if (stream or sys.stdout).isatty() else 100)
+    return Console(file=stream or sys.stdout, highlight=False)
 
 
 def _existing_file(path: str) -> str:
@@ -111,3 +110,7 @@ def register(sub: Any) -> None:
                       help="no terminal report (files and exit code only)")
     plan.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     plan.set_defaults(handler=_plan)
+
+    from beamplan.cli import calc
+
+    calc.register(sub)

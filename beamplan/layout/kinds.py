@@ -8,21 +8,25 @@ To add a kind: write a reader here that returns a new
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from typing import Any
 
 from beamplan.errors import did_you_mean
 from beamplan.layout.model import (
     AttenuatorSpec,
+    CoatingSpec,
     DriftSpec,
     DumpSpec,
     ElementSpec,
+    GasFillSpec,
     MirrorSpec,
+    MultilayerSpec,
     OutputSpec,
     SplitterSpec,
     SwitchSpec,
 )
-from beamplan.layout.reader import ID_PATTERN, MapReader
+from beamplan.layout.reader import ID_PATTERN, MISSING, MapReader
 
 __all__ = ["KINDS", "read_element"]
 
@@ -30,11 +34,78 @@ Common = dict[str, Any]
 KindReader = Callable[[MapReader, Common], ElementSpec | None]
 
 
-def _mirror(r: MapReader, common: Common) -> ElementSpec | None:
-    reflectivity = r.fraction("reflectivity", required=True)
-    if reflectivity is None:
+def _coating(r: MapReader) -> CoatingSpec | None:
+    value = r.raw("coating")
+    if value is MISSING:
         return None
-    return MirrorSpec(reflectivity=reflectivity, **common)
+    if isinstance(value, str):
+        return CoatingSpec(value.strip())
+    if not isinstance(value, dict):
+        r.ctx.error("bad-type", f"{r.subject}: 'coating' must be a formula such as 'Ru' or a "
+                    "mapping {material: Ru, density: 12.4 g/cm^3}", r.value_loc("coating"))
+        return None
+    sub = r.sub("coating", f"{r.subject} coating")
+    material = sub.text("material", required=True)
+    density = sub.quantity("density", "density", minimum=0.0, strict_minimum=True)
+    delta = sub.quantity("delta", "fraction")
+    beta = sub.quantity("beta", "fraction", minimum=0.0)
+    sub.finish()
+    if (delta is None) != (beta is None):
+        r.ctx.error("missing-key", f"{r.subject}: a measured index needs both 'delta' and "
+                    "'beta'", r.value_loc("coating"), "give both, or neither")
+        return None
+    return CoatingSpec(material, density, delta, beta) if material else None
+
+
+def _multilayer(r: MapReader) -> MultilayerSpec | None:
+    if r.mapping("multilayer") is None:
+        return None
+    sub = r.sub("multilayer", f"{r.subject} multilayer")
+    pair = sub.text("pair", default="Mo/Si")
+    absorber, _, spacer = pair.partition("/")
+    if not absorber.strip() or not spacer.strip():
+        r.ctx.error("bad-value", f"{r.subject}: multilayer 'pair' must read absorber/spacer, "
+                    f"got {pair!r}", sub.value_loc("pair"), "e.g. 'pair: Mo/Si'")
+        return None
+    period = sub.quantity("period", "length", default=6.9e-9, minimum=0.0, strict_minimum=True)
+    gamma = sub.quantity("gamma", "fraction", default=0.4, minimum=0.0, maximum=1.0)
+    bilayers = sub.integer("bilayers", default=50, minimum=1)
+    capping = sub.text("capping") or None
+    capping_m = sub.quantity("capping_thickness", "length", default=2e-9 if capping else 0.0,
+                             minimum=0.0)
+    substrate = sub.text("substrate", default="SiO2")
+    roughness = sub.quantity("roughness", "length", default=0.0, minimum=0.0)
+    sub.finish()
+    if None in (period, gamma, capping_m, roughness):
+        return None
+    return MultilayerSpec(absorber.strip(), spacer.strip(), period or 0.0, gamma or 0.0,
+                          bilayers, capping, capping_m or 0.0, substrate, roughness or 0.0)
+
+
+def _mirror(r: MapReader, common: Common) -> ElementSpec | None:
+    before = len(r.ctx.diagnostics)
+    reflectivity = r.fraction("reflectivity")
+    coating = _coating(r)
+    grazing = r.quantity("grazing", "angle", minimum=0.0, strict_minimum=True,
+                         maximum=math.pi / 2)
+    multilayer = _multilayer(r)
+    incidence = r.quantity("incidence", "angle", minimum=0.0, maximum=math.pi / 2)
+    roughness = r.quantity("roughness", "length", default=0.0, minimum=0.0)
+    plane = r.quantity("plane", "angle", default=0.0)
+    if len(r.ctx.diagnostics) > before and reflectivity is None:
+        return None
+    if reflectivity is None:
+        single = coating is not None and grazing is not None
+        stack = multilayer is not None and incidence is not None
+        if not (single or stack) or (coating is not None and multilayer is not None):
+            r.ctx.error("missing-key", f"{r.subject}: a mirror needs 'reflectivity', or "
+                        "'coating' with 'grazing', or 'multilayer' with 'incidence'",
+                        r.ctx.positions.key(r.where),
+                        "e.g. '{kind: mirror, coating: Ru, grazing: 5 deg}'")
+            return None
+    return MirrorSpec(reflectivity=reflectivity, coating=coating, grazing_rad=grazing,
+                      roughness_m=roughness or 0.0, multilayer=multilayer,
+                      incidence_rad=incidence, plane_rad=plane or 0.0, **common)
 
 
 def _attenuator(r: MapReader, common: Common) -> ElementSpec | None:
@@ -45,10 +116,29 @@ def _attenuator(r: MapReader, common: Common) -> ElementSpec | None:
 
 
 def _drift(r: MapReader, common: Common) -> ElementSpec | None:
-    transmission = r.fraction("transmission", required=True)
-    if transmission is None:
+    before = len(r.ctx.diagnostics)
+    transmission = r.fraction("transmission")
+    length = r.quantity("length", "length", minimum=0.0)
+    gas = r.text("gas") or None
+    pressure = r.quantity("pressure", "pressure", minimum=0.0)
+    temperature = r.quantity("temperature", "temperature", default=295.0, minimum=0.0,
+                             strict_minimum=True)
+    fill = None
+    if gas is not None or pressure is not None:
+        if gas is None or pressure is None or length is None:
+            r.ctx.error("missing-key", f"{r.subject}: a gas-filled drift needs 'gas', "
+                        "'pressure' and 'length'", r.ctx.positions.key(r.where),
+                        "e.g. '{kind: drift, length: 40 m, gas: H2, pressure: 2 Pa}'")
+            return None
+        fill = GasFillSpec(gas, pressure, temperature or 295.0, length)
+    if transmission is None and fill is None:
+        if len(r.ctx.diagnostics) > before:
+            return None
+        r.ctx.error("missing-key", f"{r.subject}: a drift needs 'transmission', or 'gas', "
+                    "'pressure' and 'length'", r.ctx.positions.key(r.where),
+                    "e.g. 'transmission: 0.99' or 'gas: H2, pressure: 2 Pa, length: 40 m'")
         return None
-    return DriftSpec(transmission=transmission, **common)
+    return DriftSpec(transmission=transmission, fill=fill, length_m=length, **common)
 
 
 def _dump(r: MapReader, common: Common) -> ElementSpec | None:

@@ -12,13 +12,12 @@ import itertools
 from typing import Any
 
 from beamplan.errors import Diagnostic, LayoutError, Location, did_you_mean
+from beamplan.layout.endpoints import entries, read_scanners, read_sources
 from beamplan.layout.kinds import read_element
 from beamplan.layout.model import (
     ElementSpec,
     Layout,
     LinkSpec,
-    ScannerSpec,
-    SourceSpec,
     SplitterSpec,
 )
 from beamplan.layout.reader import ID_PATTERN, Context, MapReader
@@ -40,67 +39,15 @@ def _section(ctx: Context, top: MapReader, key: str, required: bool) -> dict[str
     return value
 
 
-def _entries(ctx: Context, section: dict[str, Any], name: str, noun: str
-             ) -> list[tuple[str, dict[str, Any], Path]]:
-    out = []
-    for item_id, settings in section.items():
-        path: Path = (name, item_id)
-        if not ID_PATTERN.match(item_id):
-            ctx.error("bad-id", f"{noun} id '{item_id}' is not a valid id",
-                      ctx.positions.key(path),
-                      "use letters, digits, '-' and '_', starting with a letter or digit")
-            continue
-        if not isinstance(settings, dict):
-            ctx.error("bad-type", f"{noun} '{item_id}': expected a mapping of settings, "
-                      f"got {settings!r}", ctx.positions.value(path),
-                      "write e.g. '{power: 300 W}'")
-            continue
-        out.append((item_id, settings, path))
-    return out
-
-
 def _reader(ctx: Context, settings: dict[str, Any], path: Path, subject: str) -> MapReader:
     return MapReader(ctx, settings, {k: (*path, k) for k in settings}, subject, path)
-
-
-def _read_sources(ctx: Context, section: dict[str, Any]) -> list[SourceSpec]:
-    out = []
-    for sid, settings, path in _entries(ctx, section, "sources", "source"):
-        r = _reader(ctx, settings, path, f"source '{sid}'")
-        power = r.quantity("power", "power", required=True, minimum=0.0)
-        electrical = r.quantity("electrical", "power", minimum=0.0)
-        note = r.text("note")
-        r.finish()
-        if power is not None:
-            out.append(SourceSpec(sid, power, electrical, note, ctx.positions.key(path)))
-    return out
-
-
-def _read_scanners(ctx: Context, section: dict[str, Any]) -> list[ScannerSpec]:
-    out = []
-    for sid, settings, path in _entries(ctx, section, "scanners", "scanner"):
-        r = _reader(ctx, settings, path, f"scanner '{sid}'")
-        need = r.quantity("power", "power", required=True, minimum=0.0, strict_minimum=True)
-        max_w = r.quantity("max_power", "power", minimum=0.0)
-        priority = r.integer("priority", default=1, minimum=1)
-        note = r.text("note")
-        r.finish()
-        if need is None:
-            continue
-        loc = ctx.positions.key(path)
-        if max_w is not None and max_w < need:
-            ctx.warning("max-below-need",
-                        f"scanner '{sid}': max_power {max_w:g} W is below its need {need:g} W",
-                        r.value_loc("max_power"), "it can never be fully served")
-        out.append(ScannerSpec(sid, need, max_w, priority, note, loc))
-    return out
 
 
 def _read_elements(ctx: Context, section: dict[str, Any], parts: dict[str, Any]
                    ) -> tuple[list[ElementSpec], set[str]]:
     used_parts: set[str] = set()
     out: list[ElementSpec] = []
-    for eid, settings, path in _entries(ctx, section, "elements", "element"):
+    for eid, settings, path in entries(ctx, section, "elements", "element"):
         merged: dict[str, Any] = {}
         paths: dict[str, Path] = {}
         part = settings.get("part")
@@ -241,16 +188,21 @@ def parse_layout(doc: YamlDocument) -> Layout:
     wavelength = top.quantity("wavelength", "length", default=DEFAULT_WAVELENGTH_M,
                               minimum=0.0, strict_minimum=True)
     note = top.text("note")
-    sources = _read_sources(ctx, _section(ctx, top, "sources", True))
+    sources = read_sources(ctx, _section(ctx, top, "sources", True))
     parts = _section(ctx, top, "parts", False)
     elements, used_parts = _read_elements(ctx, _section(ctx, top, "elements", False), parts)
-    scanners = _read_scanners(ctx, _section(ctx, top, "scanners", True))
+    profiles = _section(ctx, top, "profiles", False)
+    scanners, used_profiles = read_scanners(ctx, _section(ctx, top, "scanners", True), profiles)
     links = _read_beamlines(ctx, top, doc.text.splitlines())
     top.finish()
     for part in parts:
         if part not in used_parts:
             ctx.warning("unused-part", f"part '{part}' is not used by any element",
                         ctx.positions.key(("parts", part)), "remove it or use it")
+    for profile in profiles:
+        if profile not in used_profiles:
+            ctx.warning("unused-profile", f"profile '{profile}' is not used by any scanner",
+                        ctx.positions.key(("profiles", profile)), "remove it or use it")
     items: dict[str, Any] = {}
     for section, group in (("sources", sources), ("elements", elements),
                            ("scanners", scanners)):

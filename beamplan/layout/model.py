@@ -14,31 +14,56 @@ from beamplan.errors import Diagnostic, Location
 
 __all__ = [
     "AttenuatorSpec",
+    "CoatingSpec",
+    "DemandSpec",
     "DriftSpec",
     "DumpSpec",
     "ElementSpec",
+    "GasFillSpec",
     "Layout",
     "LinkSpec",
     "MirrorSpec",
+    "MultilayerSpec",
     "OutputSpec",
     "ScannerSpec",
     "SourceSpec",
     "SplitterSpec",
     "SwitchSpec",
+    "UndulatorSpec",
 ]
 
 _NOWHERE = Location("<layout>", 1, 1)
 
 
 @dataclass(frozen=True)
+class UndulatorSpec:
+    """A planar undulator and its electron beam, to check the declared wavelength."""
+
+    energy_ev: float
+    period_m: float
+    k: float | None = None
+    peak_field_t: float | None = None
+    harmonic: int = 1
+    tunable: bool = False
+    tolerance: float = 0.01
+
+
+@dataclass(frozen=True)
 class SourceSpec:
-    """A light source: the power available at its exit, in W."""
+    """A light source: the power available at its exit, in W.
+
+    ``polarisation_degree`` is the degree of linear polarisation in [0, 1],
+    ``polarisation_angle_rad`` the angle of its E-field to the lab horizontal.
+    """
 
     id: str
     power_w: float
     electrical_w: float | None = None
     note: str = ""
     location: Location = _NOWHERE
+    polarisation_degree: float = 0.0
+    polarisation_angle_rad: float = 0.0
+    undulator: UndulatorSpec | None = None
 
 
 @dataclass(frozen=True)
@@ -76,10 +101,45 @@ class ElementSpec:
 
 
 @dataclass(frozen=True)
-class MirrorSpec(ElementSpec):
-    """A mirror with a fixed reflectivity (a fraction in [0, 1])."""
+class CoatingSpec:
+    """A mirror coating: a formula, optionally its density and measured δ, β."""
 
-    reflectivity: float = 1.0
+    material: str
+    density_g_cm3: float | None = None
+    delta: float | None = None
+    beta: float | None = None
+
+
+@dataclass(frozen=True)
+class MultilayerSpec:
+    """A periodic multilayer: absorber/spacer pair on a substrate."""
+
+    absorber: str = "Mo"
+    spacer: str = "Si"
+    period_m: float = 6.9e-9
+    gamma: float = 0.4
+    bilayers: int = 50
+    capping: str | None = None
+    capping_m: float = 0.0
+    substrate: str = "SiO2"
+    roughness_m: float = 0.0
+
+
+@dataclass(frozen=True)
+class MirrorSpec(ElementSpec):
+    """A mirror: a fixed reflectivity, or a coating at a grazing angle, or a multilayer.
+
+    A fixed ``reflectivity`` wins when given. ``plane_rad`` is the angle of
+    the plane of incidence to the lab horizontal (for polarised sources).
+    """
+
+    reflectivity: float | None = None
+    coating: CoatingSpec | None = None
+    grazing_rad: float | None = None
+    roughness_m: float = 0.0
+    multilayer: MultilayerSpec | None = None
+    incidence_rad: float | None = None
+    plane_rad: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -122,10 +182,22 @@ class AttenuatorSpec(ElementSpec):
 
 
 @dataclass(frozen=True)
-class DriftSpec(ElementSpec):
-    """A drift section (vacuum pipe) with a fixed transmission."""
+class GasFillSpec:
+    """The residual or buffer gas of a drift: Beer–Lambert absorption over its length."""
 
-    transmission: float = 1.0
+    gas: str
+    pressure_pa: float
+    temperature_k: float
+    length_m: float
+
+
+@dataclass(frozen=True)
+class DriftSpec(ElementSpec):
+    """A drift section: a fixed transmission, or a gas fill over a length."""
+
+    transmission: float | None = None
+    fill: GasFillSpec | None = None
+    length_m: float | None = None
 
 
 @dataclass(frozen=True)
@@ -150,13 +222,32 @@ class SwitchSpec(ElementSpec):
 
 
 @dataclass(frozen=True)
+class DemandSpec:
+    """A scanner's process and tool, from which its IF power need is derived.
+
+    ``tool`` holds (field, value) pairs in SI units, named like the fields of
+    :class:`beamplan.physics.demand.ScannerTool`; absent fields take its
+    defaults. The stochastic floor applies when ``critical_area_m2`` is given.
+    """
+
+    dose_j_m2: float
+    wafers_per_hour: float
+    tool: tuple[tuple[str, float], ...] = ()
+    critical_area_m2: float | None = None
+    resist_absorption_per_m: float | None = None
+    resist_thickness_m: float | None = None
+    noise: float | None = None
+    profile: str | None = None
+
+
+@dataclass(frozen=True)
 class ScannerSpec:
     """A scanner's entrance port at its intermediate focus (IF).
 
     Attributes
     ----------
     need_w
-        The IF power it needs, in W.
+        The IF power it needs, in W, or ``None`` when ``demand`` derives it.
     max_w
         The most IF power it accepts, or ``None``.
     priority
@@ -164,11 +255,12 @@ class ScannerSpec:
     """
 
     id: str
-    need_w: float
+    need_w: float | None
     max_w: float | None = None
     priority: int = 1
     note: str = ""
     location: Location = _NOWHERE
+    demand: DemandSpec | None = None
 
 
 @dataclass(frozen=True)

@@ -16,10 +16,11 @@ from beamplan.errors import Diagnostic, Location, did_you_mean
 from beamplan.layout.yamlpos import Path, Positions
 from beamplan.units import DIMENSIONS, UnitError, parse_quantity
 
-__all__ = ["ID_PATTERN", "Context", "MapReader"]
+__all__ = ["ID_PATTERN", "MISSING", "Context", "MapReader"]
 
 ID_PATTERN = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_\-]*$")
-_MISSING = object()
+MISSING = object()
+_MISSING = MISSING
 
 
 class Context:
@@ -205,6 +206,12 @@ class MapReader:
                            f"got {type(value).__name__}", code="bad-type")
             return None
         return value
+
+    def sub(self, key: str, subject: str) -> MapReader:
+        """A reader for the nested mapping at ``key`` (which must be a mapping)."""
+        value = self.data.get(key) or {}
+        path = self.paths[key]
+        return MapReader(self.ctx, value, {k: (*path, k) for k in value}, subject, path)
 
     def finish(self, hint_keys: tuple[str, ...] = ()) -> None:
         """Report every key that was not asked for."""

@@ -17,6 +17,7 @@ from __future__ import annotations
 import enum
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any
 
 from beamplan.errors import Location
 from beamplan.layout.model import (
@@ -30,8 +31,9 @@ from beamplan.layout.model import (
     SplitterSpec,
     SwitchSpec,
 )
+from beamplan.network.derive import drift_transmission, mirror_gain, scanner_demand, source_check
 
-__all__ = ["Behaviour", "Node", "Port", "element_node", "scanner_node", "source_node"]
+__all__ = ["Behaviour", "Node", "Optics", "Port", "element_node", "scanner_node", "source_node"]
 
 
 class Behaviour(enum.Enum):
@@ -86,6 +88,7 @@ class Node:
     select: str | None = None
     provenance: str = ""
     location: Location = _NOWHERE
+    demand: Any = None  # beamplan.network.derive.ScannerDemand for scanners with a model
 
     @property
     def is_source(self) -> bool:
@@ -110,19 +113,29 @@ class Node:
 GIVEN = "given in the layout"
 
 
-def _mirror(spec: ElementSpec) -> dict[str, object]:
+@dataclass(frozen=True)
+class Optics:
+    """What the physics of an element depends on beyond its own spec."""
+
+    wavelength_m: float = 13.5e-9
+    s_polarisation: float = 0.0
+
+
+def _mirror(spec: ElementSpec, optics: Optics) -> dict[str, object]:
     assert isinstance(spec, MirrorSpec)
-    return {"behaviour": Behaviour.GAIN, "gain_min": spec.reflectivity,
-            "gain_max": spec.reflectivity, "provenance": GIVEN}
+    gain, how = mirror_gain(spec, optics.wavelength_m, optics.s_polarisation)
+    return {"behaviour": Behaviour.GAIN, "gain_min": gain, "gain_max": gain,
+            "provenance": how}
 
 
-def _drift(spec: ElementSpec) -> dict[str, object]:
+def _drift(spec: ElementSpec, optics: Optics) -> dict[str, object]:
     assert isinstance(spec, DriftSpec)
-    return {"behaviour": Behaviour.GAIN, "gain_min": spec.transmission,
-            "gain_max": spec.transmission, "provenance": GIVEN}
+    gain, how = drift_transmission(spec, optics.wavelength_m)
+    return {"behaviour": Behaviour.GAIN, "gain_min": gain, "gain_max": gain,
+            "provenance": how}
 
 
-def _attenuator(spec: ElementSpec) -> dict[str, object]:
+def _attenuator(spec: ElementSpec, optics: Optics) -> dict[str, object]:
     assert isinstance(spec, AttenuatorSpec)
     fixed = spec.transmission_min == spec.transmission_max
     return {"behaviour": Behaviour.GAIN if fixed else Behaviour.RANGE,
@@ -130,25 +143,25 @@ def _attenuator(spec: ElementSpec) -> dict[str, object]:
             "provenance": GIVEN}
 
 
-def _splitter(spec: ElementSpec) -> dict[str, object]:
+def _splitter(spec: ElementSpec, optics: Optics) -> dict[str, object]:
     assert isinstance(spec, SplitterSpec)
     ports = tuple(Port(o.name, o.efficiency, o.fraction_min, o.fraction_max)
                   for o in spec.outputs)
     return {"behaviour": Behaviour.SPLIT, "ports": ports, "provenance": GIVEN}
 
 
-def _switch(spec: ElementSpec) -> dict[str, object]:
+def _switch(spec: ElementSpec, optics: Optics) -> dict[str, object]:
     assert isinstance(spec, SwitchSpec)
     return {"behaviour": Behaviour.COMBINE, "gain_min": spec.efficiency,
             "gain_max": spec.efficiency, "select": spec.select, "provenance": GIVEN}
 
 
-def _dump(spec: ElementSpec) -> dict[str, object]:
+def _dump(spec: ElementSpec, optics: Optics) -> dict[str, object]:
     assert isinstance(spec, DumpSpec)
     return {"behaviour": Behaviour.ABSORB, "gain_min": 0.0, "gain_max": 0.0, "ports": ()}
 
 
-BEHAVIOURS: dict[type[ElementSpec], Callable[[ElementSpec], dict[str, object]]] = {
+BEHAVIOURS: dict[type[ElementSpec], Callable[[ElementSpec, Optics], dict[str, object]]] = {
     MirrorSpec: _mirror,
     DriftSpec: _drift,
     AttenuatorSpec: _attenuator,
@@ -158,8 +171,13 @@ BEHAVIOURS: dict[type[ElementSpec], Callable[[ElementSpec], dict[str, object]]] 
 }
 
 
-def element_node(spec: ElementSpec) -> Node:
+def element_node(spec: ElementSpec, optics: Optics | None = None) -> Node:
     """The network node of an element, with its behaviour and gain.
+
+    Raises
+    ------
+    ValueError
+        When its physics cannot be computed (unknown coating, bad geometry).
 
     Examples
     --------
@@ -169,13 +187,13 @@ def element_node(spec: ElementSpec) -> Node:
     ...                             transmission_max=1.0)).behaviour
     <Behaviour.RANGE: 'range'>
     """
-    fields = BEHAVIOURS[type(spec)](spec)
+    fields = BEHAVIOURS[type(spec)](spec, optics or Optics())
     return Node(id=spec.id, kind=spec.kind, heat_limit_w=spec.heat_limit_w,
                 location=spec.location, **fields)  # type: ignore[arg-type]
 
 
-def source_node(spec: SourceSpec) -> Node:
-    """The network node of a source.
+def source_node(spec: SourceSpec, wavelength_m: float = 13.5e-9) -> Node:
+    """The network node of a source (its undulator checked when it has one).
 
     Examples
     --------
@@ -184,17 +202,25 @@ def source_node(spec: SourceSpec) -> Node:
     """
     return Node(id=spec.id, kind="source", behaviour=Behaviour.SOURCE,
                 available_w=spec.power_w, electrical_w=spec.electrical_w,
-                location=spec.location)
+                provenance=source_check(spec, wavelength_m), location=spec.location)
 
 
-def scanner_node(spec: ScannerSpec) -> Node:
-    """The network node of a scanner.
+def scanner_node(spec: ScannerSpec, wavelength_m: float = 13.5e-9) -> Node:
+    """The network node of a scanner; its need comes from its demand model if needed.
 
     Examples
     --------
     >>> scanner_node(ScannerSpec("litho-01", 300.0, 500.0)).max_w
     500.0
     """
+    demand = None if spec.demand is None else scanner_demand(spec.demand, wavelength_m)
+    if spec.need_w is not None:
+        need, how = spec.need_w, GIVEN
+    else:
+        assert demand is not None
+        need = demand.need_w
+        how = (f"from dose {demand.dose_j_m2 / 10:.1f} mJ/cm² ({demand.dose_set_by}) at "
+               f"{demand.target_wph:g} wph: scanner throughput model")
     return Node(id=spec.id, kind="scanner", behaviour=Behaviour.SINK, ports=(),
-                need_w=spec.need_w, max_w=spec.max_w, priority=spec.priority,
-                provenance=GIVEN, location=spec.location)
+                need_w=need, max_w=spec.max_w, priority=spec.priority,
+                provenance=how, location=spec.location, demand=demand)

@@ -7,11 +7,18 @@ and returns a frozen :class:`Network` ready for the optimiser.
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from beamplan.errors import Diagnostic, LayoutError, Location
-from beamplan.layout.model import Layout
-from beamplan.network.behaviour import Behaviour, Node, element_node, scanner_node, source_node
+from beamplan.layout.model import DriftSpec, ElementSpec, Layout, MirrorSpec, SourceSpec
+from beamplan.network.behaviour import (
+    Behaviour,
+    Node,
+    Optics,
+    element_node,
+    scanner_node,
+    source_node,
+)
 
 __all__ = ["Link", "Network", "build_network"]
 
@@ -123,6 +130,67 @@ class Network:
         return tail.gain_max
 
 
+def _feeding_source(layout: Layout) -> dict[str, SourceSpec]:
+    """The first source (in layout order) whose beam reaches each node."""
+    following: dict[str, list[str]] = {}
+    for link in layout.links:
+        following.setdefault(link.tail, []).append(link.head)
+    first: dict[str, SourceSpec] = {}
+    for source in layout.sources:
+        stack = [source.id]
+        while stack:
+            current = stack.pop()
+            for head in following.get(current, []):
+                if head not in first:
+                    first[head] = source
+                    stack.append(head)
+    return first
+
+
+def _s_polarisation(spec: ElementSpec, source: SourceSpec | None) -> float:
+    if source is None or not isinstance(spec, MirrorSpec) or source.polarisation_degree == 0:
+        return 0.0
+    from beamplan.physics.optics import s_polarisation
+
+    return float(s_polarisation(source.polarisation_degree, source.polarisation_angle_rad,
+                                spec.plane_rad))
+
+
+def _nodes(layout: Layout) -> tuple[dict[str, Node], list[Diagnostic]]:
+    """Every node with its physics; a node whose physics fails is reported, kept neutral."""
+    errors: list[Diagnostic] = []
+    nodes: dict[str, Node] = {}
+    feeding = _feeding_source(layout)
+    wavelength = layout.wavelength_m
+
+    def failed(what: str, item_id: str, exc: Exception, location: Location) -> None:
+        errors.append(Diagnostic("error", "physics", f"{what} '{item_id}': {exc}", location,
+                                 "check its physical settings"))
+
+    for s in layout.sources:
+        try:
+            nodes[s.id] = source_node(s, wavelength)
+        except ValueError as exc:
+            failed("source", s.id, exc, s.location)
+            nodes[s.id] = source_node(replace(s, undulator=None), wavelength)
+    for e in layout.elements:
+        optics = Optics(wavelength, _s_polarisation(e, feeding.get(e.id)))
+        try:
+            nodes[e.id] = element_node(e, optics)
+        except ValueError as exc:
+            failed(e.kind, e.id, exc, e.location)
+            neutral = replace(e, reflectivity=1.0) if isinstance(e, MirrorSpec) else \
+                replace(e, transmission=1.0) if isinstance(e, DriftSpec) else e
+            nodes[e.id] = element_node(neutral, optics)
+    for sc in layout.scanners:
+        try:
+            nodes[sc.id] = scanner_node(sc, wavelength)
+        except ValueError as exc:
+            failed("scanner", sc.id, exc, sc.location)
+            nodes[sc.id] = scanner_node(replace(sc, need_w=1.0, demand=None), wavelength)
+    return nodes, errors
+
+
 def build_network(layout: Layout) -> Network:
     """Build and check the network of a layout.
 
@@ -141,12 +209,11 @@ def build_network(layout: Layout) -> Network:
     """
     from beamplan.network.checks import check_graph, heat_limit_warnings
 
-    nodes = {s.id: source_node(s) for s in layout.sources}
-    nodes.update({e.id: element_node(e) for e in layout.elements})
-    nodes.update({s.id: scanner_node(s) for s in layout.scanners})
+    nodes, physics_errors = _nodes(layout)
     links = tuple(Link(i, spec.tail, spec.head, spec.port, spec.head_location)
                   for i, spec in enumerate(layout.links))
     problems, order = check_graph(layout, nodes, links)
+    problems = [*physics_errors, *problems]
     if any(p.is_error for p in problems):
         raise LayoutError([*layout.warnings, *problems])
     network = Network(layout.name, layout.file, layout.wavelength_m,

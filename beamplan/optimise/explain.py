@@ -8,9 +8,9 @@ minimisation, a row's dual ``y`` is d(objective)/d(right-hand side):
 * min-source (objective Σ source W): d source / d rhs = y;
 * shortfall (objective Σ weighted shortfall W): d shortfall / d rhs = y.
 
-Share and range bounds are coefficients, not right-hand sides; their price
-per unit of the bound is −y × input (the derivative of the optimum with
-respect to a matrix coefficient a_ij is −y_i x_j).
+Share and range bounds are coefficients, not right-hand sides: raising a
+bound f in ``s − f·in ≤ 0`` by Δ moves the row's right-hand side by Δ·in, so
+its price per unit of the bound is the row's price times the input.
 """
 
 from __future__ import annotations
@@ -57,8 +57,6 @@ def _price(row: Row, dual: float, primary: str, flows: Flows) -> tuple[float, st
     per_coefficient = row.family in ("share-low", "share-high", "range-low", "range-high")
     scale = flows.incident_w[row.node] if per_coefficient else 1.0
     sign = -1.0 if primary == "factor" else 1.0
-    if per_coefficient:
-        sign = -sign
     price = sign * dual * scale
     unit = "per unit of the bound" if per_coefficient else "per W"
     return price, unit

@@ -39,8 +39,20 @@ def _scanners(network: Network, flows: Flows, source_w: dict[str, float]
         else:
             status = "cut off" if delivered <= 1e-9 * node.need_w else "short"
             limits = shortfall_limits(network, node.id, flows, delivered, source_w)
+        extra = {}
+        if node.demand is not None:
+            from beamplan.physics.demand import throughput_at_power
+
+            d = node.demand
+            achieved = throughput_at_power(d.tool, d.dose_j_m2, delivered) if delivered > 0 \
+                else None
+            extra = {"dose_j_m2": d.dose_j_m2, "dose_set_by": d.dose_set_by,
+                     "target_wph": d.target_wph,
+                     "achieved_wph": achieved.wafers_per_hour if achieved else 0.0,
+                     "throughput_limit": str(achieved.limit) if achieved else "power"}
         out.append(ScannerResult(node.id, node.need_w, delivered, node.max_w, node.priority,
-                                 ratio - 1.0, short, status, limits))
+                                 ratio - 1.0, short, status, limits, node.provenance,
+                                 **extra))  # type: ignore[arg-type]
     return tuple(out)
 
 
@@ -96,7 +108,8 @@ def solve_model(model: LpModel, backend: Backend, goal: str) -> Plan:
                 elements=_elements(network, flows), losses=_losses(network, flows, total),
                 binding=binding_constraints(model, outcome, flows),
                 solver=backend.name, solver_version=backend.version, stages=outcome.stages,
-                warnings=tuple(w.format() for w in network.warnings))
+                warnings=tuple(w.format() for w in network.warnings),
+                wavelength_m=network.wavelength_m)
     verify(plan, network)
     return plan
 

@@ -54,6 +54,12 @@ class ScannerResult:
     shortfall_w: float
     status: str  # "met", "short", "cut off"
     limits: tuple[str, ...] = ()
+    need_provenance: str = ""
+    dose_j_m2: float | None = None
+    dose_set_by: str | None = None
+    target_wph: float | None = None
+    achieved_wph: float | None = None
+    throughput_limit: str | None = None  # "stage" or "power"
 
 
 @dataclass(frozen=True)
@@ -120,6 +126,25 @@ class Plan:
     solver_version: str
     stages: int
     warnings: tuple[str, ...] = field(default=())
+    wavelength_m: float = 13.5e-9
+
+    @property
+    def photon_energy_ev(self) -> float:
+        """Photon energy at the layout wavelength (CODATA constants)."""
+        from beamplan.physics.photons import photon_energy_ev
+
+        return photon_energy_ev(self.wavelength_m)
+
+    @property
+    def electrical_per_delivered(self) -> float | None:
+        """Wall-plug power per unit of EUV power delivered at the scanners."""
+        electrical = [s.electrical_w for s in self.sources
+                      if s.electrical_w is not None and s.output_w > 0]
+        if not electrical or self.delivered_w <= 0:
+            return None
+        from beamplan.physics.source import electrical_kw_per_euv_kw
+
+        return float(electrical_kw_per_euv_kw(self.delivered_w, sum(electrical)))
 
     @property
     def source_used_w(self) -> float:

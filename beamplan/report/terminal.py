@@ -15,6 +15,7 @@ from rich.table import Table
 from rich.text import Text
 
 from beamplan.errors import Diagnostic
+from beamplan.network.behaviour import GIVEN
 from beamplan.optimise.result import ElementResult, Plan
 from beamplan.report import CAUTION
 from beamplan.units import format_power
@@ -59,9 +60,10 @@ def _header(plan: Plan) -> Table:
                               f"overall efficiency {plan.efficiency:.1%}")
     grid.add_row("headroom", f"factor {plan.headroom_factor:.4f} (lowest scanner "
                              f"{_pct(plan.headroom_factor - 1)})")
-    electrical = [s.electrical_w for s in plan.sources if s.electrical_w]
-    if electrical and plan.delivered_w > 0:
-        per_kw = sum(electrical) / plan.delivered_w
+    grid.add_row("light", f"{plan.wavelength_m * 1e9:.2f} nm, {plan.photon_energy_ev:.2f} eV "
+                          "per photon")
+    per_kw = plan.electrical_per_delivered
+    if per_kw is not None:
         grid.add_row("wall plug", f"{per_kw:.0f} kW electrical per kW delivered at IF")
     return grid
 
@@ -96,6 +98,34 @@ def _elements(plan: Plan) -> Table:
             style = "bold yellow" if used >= 1.0 - 1e-6 else ""
         table.add_row(e.id, e.kind, format_power(e.incident_w), format_power(e.absorbed_w),
                       format_power(e.output_w), limit, Text(use, style=style))
+    return table
+
+
+def _throughput(plan: Plan) -> Table | None:
+    modelled = [s for s in plan.scanners if s.target_wph is not None]
+    if not modelled:
+        return None
+    table = _table("Throughput at the delivered power")
+    for name, justify in (("scanner", "left"), ("dose", "right"), ("set by", "left"),
+                          ("target", "right"), ("achieved", "right"), ("limit", "left")):
+        table.add_column(name, justify=justify)  # type: ignore[arg-type]
+    for s in modelled:
+        table.add_row(s.id, f"{(s.dose_j_m2 or 0) / 10:.1f} mJ/cm²", s.dose_set_by or "",
+                      f"{s.target_wph:.0f} wph", f"{s.achieved_wph or 0:.1f} wph",
+                      s.throughput_limit or "")
+    return table
+
+
+def _optics(plan: Plan) -> Table | None:
+    computed = [e for e in plan.elements if e.provenance and e.provenance != GIVEN]
+    if not computed:
+        return None
+    table = _table("Computed optics (gain from physics)")
+    table.add_column("element")
+    table.add_column("gain", justify="right")
+    table.add_column("how", overflow="fold")
+    for e in computed:
+        table.add_row(e.id, f"{e.gain:.4f}", e.provenance)
     return table
 
 
@@ -166,9 +196,9 @@ def plan_renderable(plan: Plan, *, elements: bool = True) -> Group:
     parts += _shortfalls(plan)
     if elements:
         parts += [Text(""), _elements(plan)]
-    settings = _settings(plan)
-    if settings is not None:
-        parts += [Text(""), settings]
+    for extra in (_throughput(plan), _optics(plan), _settings(plan)):
+        if extra is not None:
+            parts += [Text(""), extra]
     parts += [Text(""), _losses(plan), Text(""), _binding(plan)]
     if plan.warnings:
         parts.append(Text(f"{len(plan.warnings)} warning(s) from the layout check; run "

@@ -1,0 +1,202 @@
+"""Read the endpoints of a network: sources (with polarisation and an optional
+undulator check) and scanners (a fixed IF power, or dose and throughput with
+a tool description, optionally from a reusable profile)."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from beamplan.errors import did_you_mean
+from beamplan.layout.model import DemandSpec, ScannerSpec, SourceSpec, UndulatorSpec
+from beamplan.layout.reader import ID_PATTERN, MISSING, Context, MapReader
+from beamplan.layout.yamlpos import Path
+
+__all__ = ["TOOL_KEYS", "entries", "read_scanners", "read_sources"]
+
+# Layout key -> (dimension or "int", field of beamplan.physics.demand.ScannerTool).
+TOOL_KEYS: dict[str, tuple[str, str]] = {
+    "fields": ("int", "fields_per_wafer"),
+    "field_width": ("length", "field_width_m"),
+    "field_length": ("length", "field_length_m"),
+    "slit_height": ("length", "slit_height_m"),
+    "wafer_overhead": ("time", "wafer_overhead_s"),
+    "field_overhead": ("time", "field_overhead_s"),
+    "stage_speed": ("speed", "stage_max_speed_m_s"),
+    "reflections": ("int", "mirror_reflections"),
+    "mirror_reflectivity": ("fraction", "mirror_reflectivity"),
+    "mask_reflectivity": ("fraction", "mask_reflectivity"),
+    "pellicle": ("fraction", "pellicle_transmission"),
+    "other_losses": ("fraction", "other_losses_factor"),
+    "dose_margin": ("fraction", "dose_control_margin"),
+}
+
+
+def entries(ctx: Context, section: dict[str, Any], name: str, noun: str
+            ) -> list[tuple[str, dict[str, Any], Path]]:
+    """The (id, settings, path) of each valid entry of a section; bad ones are reported."""
+    out = []
+    for item_id, settings in section.items():
+        path: Path = (name, item_id)
+        if not ID_PATTERN.match(item_id):
+            ctx.error("bad-id", f"{noun} id '{item_id}' is not a valid id",
+                      ctx.positions.key(path),
+                      "use letters, digits, '-' and '_', starting with a letter or digit")
+            continue
+        if not isinstance(settings, dict):
+            ctx.error("bad-type", f"{noun} '{item_id}': expected a mapping of settings, "
+                      f"got {settings!r}", ctx.positions.value(path),
+                      "write e.g. '{power: 300 W}'")
+            continue
+        out.append((item_id, settings, path))
+    return out
+
+
+def _undulator(r: MapReader) -> UndulatorSpec | None:
+    if r.mapping("undulator") is None:
+        return None
+    u = r.sub("undulator", f"{r.subject} undulator")
+    energy = u.quantity("energy", "electron energy", required=True, minimum=0.0,
+                        strict_minimum=True)
+    period = u.quantity("period", "length", required=True, minimum=0.0, strict_minimum=True)
+    k = _plain(u, "k")
+    field = u.quantity("field", "magnetic field", minimum=0.0)
+    harmonic = u.integer("harmonic", default=1, minimum=1)
+    tunable = bool(u.raw("tunable") is True)
+    tolerance = u.quantity("tolerance", "fraction", default=0.01, minimum=0.0)
+    u.finish()
+    if energy is None or period is None:
+        return None
+    if (k is None) == (field is None):
+        r.ctx.error("missing-key", f"{r.subject}: the undulator needs exactly one of 'k' and "
+                    "'field'", r.value_loc("undulator"), "e.g. 'k: 2.3' or 'field: 0.9 T'")
+        return None
+    return UndulatorSpec(energy, period, k, field, harmonic, tunable, tolerance or 0.01)
+
+
+def _plain(r: MapReader, key: str) -> float | None:
+    """A plain non-negative number (the deflection parameter K has no unit)."""
+    value = r.raw(key)
+    if value is MISSING:
+        return None
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or value < 0:
+        r.ctx.error("bad-value", f"{r.subject}: '{key}' must be a number ≥ 0, got {value!r}",
+                    r.value_loc(key), f"e.g. '{key}: 2.3'")
+        return None
+    return float(value)
+
+
+def read_sources(ctx: Context, section: dict[str, Any]) -> list[SourceSpec]:
+    """Read the ``sources`` section."""
+    out = []
+    for sid, settings, path in entries(ctx, section, "sources", "source"):
+        r = MapReader(ctx, settings, {k: (*path, k) for k in settings}, f"source '{sid}'", path)
+        power = r.quantity("power", "power", required=True, minimum=0.0)
+        electrical = r.quantity("electrical", "power", minimum=0.0)
+        degree = r.quantity("polarisation", "fraction", default=0.0, minimum=0.0, maximum=1.0)
+        angle = r.quantity("polarisation_angle", "angle", default=0.0)
+        undulator = _undulator(r)
+        note = r.text("note")
+        r.finish()
+        if power is not None:
+            out.append(SourceSpec(sid, power, electrical, note, ctx.positions.key(path),
+                                  degree or 0.0, angle or 0.0, undulator))
+    return out
+
+
+def _merged(ctx: Context, settings: dict[str, Any], path: Path, profiles: dict[str, Any],
+            used: set[str], subject: str) -> tuple[dict[str, Any], dict[str, Path]] | None:
+    merged: dict[str, Any] = {}
+    paths: dict[str, Path] = {}
+    profile = settings.get("profile")
+    if profile is not None:
+        template = profiles.get(str(profile))
+        if not isinstance(template, dict):
+            hint = did_you_mean(str(profile), profiles) or (
+                f"the profiles are: {', '.join(profiles)}" if profiles
+                else "define it under 'profiles:'")
+            ctx.error("unknown-profile", f"{subject}: unknown profile '{profile}'",
+                      ctx.positions.value((*path, "profile")), hint)
+            return None
+        used.add(str(profile))
+        for key, value in template.items():
+            merged[key] = value
+            paths[key] = ("profiles", str(profile), key)
+    for key, value in settings.items():
+        merged[key] = value
+        paths[key] = (*path, key)
+    return merged, paths
+
+
+def _demand(r: MapReader, profile: str | None) -> DemandSpec | None:
+    if not (r.has("dose") or r.has("wph")):
+        for key in (*TOOL_KEYS, "critical_area", "resist_absorption", "resist_thickness",
+                    "noise"):
+            r.asked.add(key)  # allowed keys, unused without a dose
+        return None
+    if r.has("dose") and isinstance(r.data["dose"], (int, float)):
+        r.asked.add("dose")
+        r.ctx.error("bad-unit", f"{r.subject}: 'dose' needs a unit", r.value_loc("dose"),
+                    f"write e.g. 'dose: {r.data['dose']} mJ/cm^2'")
+        return None
+    dose = r.quantity("dose", "dose", required=True, minimum=0.0, strict_minimum=True)
+    wph = r.quantity("wph", "rate", required=True, minimum=0.0, strict_minimum=True)
+    tool: list[tuple[str, float]] = []
+    for key, (dimension, name) in TOOL_KEYS.items():
+        if dimension == "int":
+            if r.has(key):
+                tool.append((name, float(r.integer(key, default=0, minimum=0))))
+            else:
+                r.asked.add(key)
+            continue
+        value = r.quantity(key, dimension, minimum=0.0)
+        if value is not None:
+            tool.append((name, value))
+    area = r.quantity("critical_area", "area", minimum=0.0, strict_minimum=True)
+    alpha = r.quantity("resist_absorption", "absorption", minimum=0.0, strict_minimum=True)
+    thickness = r.quantity("resist_thickness", "length", minimum=0.0, strict_minimum=True)
+    noise = r.quantity("noise", "fraction", minimum=0.0, strict_minimum=True)
+    stochastic = (area, alpha, thickness, noise)
+    if any(v is not None for v in stochastic) and any(v is None for v in stochastic):
+        r.ctx.error("missing-key", f"{r.subject}: the stochastic dose floor needs "
+                    "'critical_area', 'resist_absorption', 'resist_thickness' and 'noise'",
+                    r.ctx.positions.key(r.where), "give all four, or none")
+        return None
+    if dose is None or wph is None:
+        return None
+    return DemandSpec(dose, wph, tuple(tool), area, alpha, thickness, noise, profile)
+
+
+def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any]
+                  ) -> tuple[list[ScannerSpec], set[str]]:
+    """Read the ``scanners`` section (with ``profiles``); return them and the profiles used."""
+    out = []
+    used: set[str] = set()
+    for sid, settings, path in entries(ctx, section, "scanners", "scanner"):
+        subject = f"scanner '{sid}'"
+        found = _merged(ctx, settings, path, profiles, used, subject)
+        if found is None:
+            continue
+        merged, paths = found
+        r = MapReader(ctx, merged, paths, subject, path)
+        profile = r.text("profile") or None
+        before = len(ctx.diagnostics)
+        need = r.quantity("power", "power", minimum=0.0, strict_minimum=True)
+        demand = _demand(r, profile)
+        max_w = r.quantity("max_power", "power", minimum=0.0)
+        priority = r.integer("priority", default=1, minimum=1)
+        note = r.text("note")
+        r.finish()
+        if len(ctx.diagnostics) > before and any(d.is_error for d in ctx.diagnostics[before:]):
+            continue
+        if need is None and demand is None:
+            ctx.error("missing-key", f"{subject}: give its IF 'power', or its 'dose' and 'wph'",
+                      ctx.positions.key(path), "e.g. 'power: 300 W' or 'dose: 30 mJ/cm^2, "
+                      "wph: 150'")
+            continue
+        if max_w is not None and need is not None and max_w < need:
+            ctx.warning("max-below-need",
+                        f"scanner '{sid}': max_power {max_w:g} W is below its need {need:g} W",
+                        r.value_loc("max_power"), "it can never be fully served")
+        out.append(ScannerSpec(sid, need, max_w, priority, note, ctx.positions.key(path),
+                               demand))
+    return out, used
