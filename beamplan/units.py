@@ -283,9 +283,9 @@ def format_power(power_w: float) -> str:
     magnitude = abs(power_w)
     if magnitude == 0.0:
         return "0 W"
-    if magnitude >= 1e6:
+    if magnitude >= 999.995e3:
         return f"{power_w / 1e6:.2f} MW"
-    if magnitude >= 1e3:
+    if magnitude >= 999.95:
         return f"{power_w / 1e3:.2f} kW"
     if magnitude >= 1.0:
         return f"{power_w:.1f} W"

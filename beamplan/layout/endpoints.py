@@ -96,10 +96,11 @@ def read_sources(ctx: Context, section: dict[str, Any]) -> list[SourceSpec]:
         angle = r.quantity("polarisation_angle", "angle", default=0.0)
         undulator = _undulator(r)
         note = r.text("note")
+        in_service = r.flag("in_service", default=True)
         r.finish()
         if power is not None:
             out.append(SourceSpec(sid, power, electrical, note, ctx.positions.key(path),
-                                  degree or 0.0, angle or 0.0, undulator))
+                                  degree or 0.0, angle or 0.0, undulator, in_service))
     return out
 
 
@@ -185,6 +186,7 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
         max_w = r.quantity("max_power", "power", minimum=0.0)
         priority = r.integer("priority", default=1, minimum=1)
         note = r.text("note")
+        in_service = r.flag("in_service", default=True)
         r.finish()
         if len(ctx.diagnostics) > before and any(d.is_error for d in ctx.diagnostics[before:]):
             continue
@@ -198,5 +200,5 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
                         f"scanner '{sid}': max_power {max_w:g} W is below its need {need:g} W",
                         r.value_loc("max_power"), "it can never be fully served")
         out.append(ScannerSpec(sid, need, max_w, priority, note, ctx.positions.key(path),
-                               demand))
+                               demand, in_service))
     return out, used

@@ -231,6 +231,8 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
     r.text("part")
     note = r.text("note")
     heat_limit_w = r.quantity("heat_limit", "power", minimum=0.0)
+    derate = r.fraction("derate", default=1.0)
+    in_service = r.flag("in_service", default=True)
     if not kind:
         r.finish()
         return None
@@ -241,7 +243,8 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
                     hint)
         return None
     common: Common = {"id": element_id, "kind": kind, "heat_limit_w": heat_limit_w,
-                      "part": part, "note": note, "location": r.ctx.positions.key(r.where)}
+                      "part": part, "note": note, "location": r.ctx.positions.key(r.where),
+                      "derate": 1.0 if derate is None else derate, "in_service": in_service}
     spec = reader(r, common)
     r.finish()
     return spec

@@ -64,6 +64,7 @@ class SourceSpec:
     polarisation_degree: float = 0.0
     polarisation_angle_rad: float = 0.0
     undulator: UndulatorSpec | None = None
+    in_service: bool = True
 
 
 @dataclass(frozen=True)
@@ -78,6 +79,10 @@ class ElementSpec:
         The element kind (``mirror``, ``splitter``, ...).
     heat_limit_w
         The most power the element may absorb, or ``None`` for no limit.
+    derate
+        A factor on its gain (ageing, contamination, a what-if), default 1.
+    in_service
+        ``False`` for an outage: no power passes it.
     part
         The part (template) it was made from, if any.
     """
@@ -88,6 +93,8 @@ class ElementSpec:
     part: str | None = None
     note: str = ""
     location: Location = _NOWHERE
+    derate: float = 1.0
+    in_service: bool = True
 
     @property
     def single_input(self) -> bool:
@@ -261,6 +268,7 @@ class ScannerSpec:
     note: str = ""
     location: Location = _NOWHERE
     demand: DemandSpec | None = None
+    in_service: bool = True
 
 
 @dataclass(frozen=True)

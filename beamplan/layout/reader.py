@@ -186,6 +186,16 @@ class MapReader:
             return default
         return value
 
+    def flag(self, key: str, *, default: bool) -> bool:
+        """A yes/no value."""
+        value = self.raw(key)
+        if value is _MISSING:
+            return default
+        if not isinstance(value, bool):
+            self._bad(key, f"'{key}' must be true or false, got {value!r}")
+            return default
+        return value
+
     def text(self, key: str, *, required: bool = False, default: str = "") -> str:
         """A string value."""
         value = self.raw(key, required, "a-name")

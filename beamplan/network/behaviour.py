@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import enum
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 from beamplan.errors import Location
@@ -33,7 +33,8 @@ from beamplan.layout.model import (
 )
 from beamplan.network.derive import drift_transmission, mirror_gain, scanner_demand, source_check
 
-__all__ = ["Behaviour", "Node", "Optics", "Port", "element_node", "scanner_node", "source_node"]
+__all__ = ["Behaviour", "Node", "Optics", "Port", "derated", "element_node", "out_of_service",
+           "scanner_node", "source_node"]
 
 
 class Behaviour(enum.Enum):
@@ -89,6 +90,7 @@ class Node:
     provenance: str = ""
     location: Location = _NOWHERE
     demand: Any = None  # beamplan.network.derive.ScannerDemand for scanners with a model
+    in_service: bool = True
 
     @property
     def is_source(self) -> bool:
@@ -188,8 +190,52 @@ def element_node(spec: ElementSpec, optics: Optics | None = None) -> Node:
     <Behaviour.RANGE: 'range'>
     """
     fields = BEHAVIOURS[type(spec)](spec, optics or Optics())
-    return Node(id=spec.id, kind=spec.kind, heat_limit_w=spec.heat_limit_w,
+    node = Node(id=spec.id, kind=spec.kind, heat_limit_w=spec.heat_limit_w,
                 location=spec.location, **fields)  # type: ignore[arg-type]
+    if spec.derate != 1.0:
+        node = derated(node, spec.derate)
+    return node if spec.in_service else out_of_service(node)
+
+
+def derated(node: Node, factor: float) -> Node:
+    """The node with its gains (or output efficiencies) multiplied by ``factor``.
+
+    Examples
+    --------
+    >>> derated(Node("m1", "mirror", Behaviour.GAIN, 0.9, 0.9), 0.5).gain_max
+    0.45
+    """
+    how = f"{node.provenance}, derated × {factor:g}" if node.provenance else f"derated × {factor:g}"
+    if node.behaviour is Behaviour.SPLIT:
+        ports = tuple(replace(p, efficiency=p.efficiency * factor) for p in node.ports)
+        return replace(node, ports=ports, provenance=how)
+    if node.behaviour in (Behaviour.GAIN, Behaviour.RANGE, Behaviour.COMBINE):
+        return replace(node, gain_min=node.gain_min * factor, gain_max=node.gain_max * factor,
+                       provenance=how)
+    return node
+
+
+def out_of_service(node: Node) -> Node:
+    """The node as an outage: no power passes it.
+
+    An element absorbs whatever still reaches it (counted as dumped, with no
+    heat limit); a source gives nothing; a scanner takes no need and whatever
+    reaches its closed port is dumped. The optimiser applies the same change
+    in place for sweeps (:mod:`beamplan.optimise.edits`).
+
+    Examples
+    --------
+    >>> node = out_of_service(Node("m1", "mirror", Behaviour.GAIN, 0.9, 0.9, heat_limit_w=5.0))
+    >>> node.gain_max, node.heat_limit_w, node.in_service
+    (0.0, None, False)
+    """
+    if node.is_source:
+        return replace(node, available_w=0.0, in_service=False)
+    if node.is_scanner:
+        return replace(node, in_service=False)
+    ports = tuple(replace(p, efficiency=0.0) for p in node.ports)
+    return replace(node, gain_min=0.0, gain_max=0.0, ports=ports, heat_limit_w=None,
+                   in_service=False)
 
 
 def source_node(spec: SourceSpec, wavelength_m: float = 13.5e-9) -> Node:
@@ -200,9 +246,10 @@ def source_node(spec: SourceSpec, wavelength_m: float = 13.5e-9) -> Node:
     >>> source_node(SourceSpec("fel", 1e4)).available_w
     10000.0
     """
-    return Node(id=spec.id, kind="source", behaviour=Behaviour.SOURCE,
+    node = Node(id=spec.id, kind="source", behaviour=Behaviour.SOURCE,
                 available_w=spec.power_w, electrical_w=spec.electrical_w,
                 provenance=source_check(spec, wavelength_m), location=spec.location)
+    return node if spec.in_service else out_of_service(node)
 
 
 def scanner_node(spec: ScannerSpec, wavelength_m: float = 13.5e-9) -> Node:
@@ -221,6 +268,7 @@ def scanner_node(spec: ScannerSpec, wavelength_m: float = 13.5e-9) -> Node:
         need = demand.need_w
         how = (f"from dose {demand.dose_j_m2 / 10:.1f} mJ/cm² ({demand.dose_set_by}) at "
                f"{demand.target_wph:g} wph: scanner throughput model")
-    return Node(id=spec.id, kind="scanner", behaviour=Behaviour.SINK, ports=(),
+    node = Node(id=spec.id, kind="scanner", behaviour=Behaviour.SINK, ports=(),
                 need_w=need, max_w=spec.max_w, priority=spec.priority,
                 provenance=how, location=spec.location, demand=demand)
+    return node if spec.in_service else out_of_service(node)

@@ -148,9 +148,11 @@ def shortfall_limits(network: Network, scanner_id: str, flows: Flows, delivered_
     node = network.node[scanner_id]
     ups = _ancestors(network, scanner_id)
     downstream = {scanner_id, *ups}
-    reasons: list[str] = []
+    reasons: list[str] = [f"{network.node[u].kind} '{u}' on its path is out of service"
+                          for u in ups if not network.node[u].in_service]
     if network.max_gains[scanner_id] <= 0.0:
-        return ("no path from a source passes any power (a gain of zero on every path)",)
+        return tuple(reasons) or ("no path from a source passes any power (a gain of zero on "
+                                  "every path)",)
     if node.max_w is not None and node.max_w < node.need_w:
         reasons.append(f"its max_power ({format_power(node.max_w)}) is below its need")
     for uid in ups:

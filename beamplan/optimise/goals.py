@@ -21,6 +21,7 @@ import numpy as np
 
 from beamplan.errors import InternalError
 from beamplan.optimise.backend import INF, Backend, RawSolution
+from beamplan.network.behaviour import Node
 from beamplan.optimise.lp import LpModel
 
 __all__ = ["GOALS", "GoalOutcome", "run_goal"]
@@ -61,6 +62,12 @@ class _Driver:
             raise InternalError(f"the LP stage {self.stages} ended {sol.status}; this is a "
                                 "bug in beamplan, please report it with the layout")
         return sol
+
+    @property
+    def scanners(self) -> list[Node]:
+        """The scanners in service (an outage takes a scanner's need away)."""
+        return [s for s in self.m.network.scanners
+                if s.in_service and s.id not in self.m.out_of_service]
 
     def need(self, sid: str) -> float:
         return self.m.network.node[sid].need_w
@@ -119,15 +126,20 @@ class _Driver:
 
 
 def _reset(d: _Driver) -> None:
+    active = {s.id for s in d.scanners}
     for sid, col in d.m.shortfall_col.items():
         d.b.set_bounds(col, 0.0, 0.0)
-        d.demand_active(sid)
+        if sid in active:
+            d.demand_active(sid)
+        else:  # out of service: no demand at all
+            d.b.set_coefficient(d.m.demand_row[sid], d.m.factor_col, 0.0)
+            d.b.set_rhs(d.m.demand_row[sid], 0.0)
     d.factor_bounds(0.0, INF)
 
 
 def _headroom(d: _Driver) -> GoalOutcome:
     levels: dict[str, float] = {}
-    d.fill([s.id for s in d.m.network.scanners], levels)
+    d.fill([s.id for s in d.scanners], levels)
     final = d.frugal()
     first = d.first or final
     return GoalOutcome(final, "factor", first.row_duals, float(first.columns[d.m.factor_col]),
@@ -135,35 +147,36 @@ def _headroom(d: _Driver) -> GoalOutcome:
 
 
 def _weights(d: _Driver) -> dict[str, float]:
-    tiers = sorted({s.priority for s in d.m.network.scanners})
+    tiers = sorted({s.priority for s in d.scanners})
     rank = {tier: len(tiers) - 1 - i for i, tier in enumerate(tiers)}
-    return {s.id: TIER_WEIGHT ** rank[s.priority] for s in d.m.network.scanners}
+    return {s.id: TIER_WEIGHT ** rank[s.priority] for s in d.scanners}
 
 
 def _min_source(d: _Driver) -> GoalOutcome:
     d.factor_bounds(1.0, 1.0)
     sol = d.frugal_at_need()
     if sol.status == "optimal":
-        levels = {s.id: 1.0 for s in d.m.network.scanners}
+        levels = {s.id: 1.0 for s in d.scanners}
         return GoalOutcome(sol, "source", sol.row_duals, sol.objective, levels, d.stages)
     weights = _weights(d)
-    for _sid, col in d.m.shortfall_col.items():
-        d.b.set_bounds(col, 0.0, INF)
+    for sid in weights:
+        d.b.set_bounds(d.m.shortfall_col[sid], 0.0, INF)
     d.objective({d.m.shortfall_col[s]: w for s, w in weights.items()})
     elastic = d.solve()
-    for _sid, col in d.m.shortfall_col.items():
+    for sid in weights:
+        col = d.m.shortfall_col[sid]
         short = float(elastic.columns[col])
         d.b.set_bounds(col, 0.0, short * (1.0 + d.b.freeze_slack) + d.b.freeze_slack)
     d.objective({col: 1.0 for col in d.m.source_col.values()})
     final = d.solve()
     levels = {s.id: 1.0 - float(final.columns[d.m.shortfall_col[s.id]]) / s.need_w
-              for s in d.m.network.scanners}
+              for s in d.scanners}
     return GoalOutcome(final, "shortfall", elastic.row_duals, elastic.objective, levels,
                        d.stages)
 
 
 def _priority(d: _Driver) -> GoalOutcome:
-    scanners = d.m.network.scanners
+    scanners = d.scanners
     tiers = sorted({s.priority for s in scanners})
     levels: dict[str, float] = {}
     for s in scanners:  # lower tiers wait: no demand yet

@@ -57,6 +57,7 @@ class LpModel:
     heat_row: dict[str, int] = field(default_factory=dict)
     available_row: dict[str, int] = field(default_factory=dict)
     max_row: dict[str, int] = field(default_factory=dict)
+    out_of_service: set[str] = field(default_factory=set)  # outages applied in place
 
     def add_column(self, name: str, low: float | None = 0.0, high: float | None = None) -> int:
         """Add a variable; return its column number."""
@@ -171,7 +172,7 @@ def _scanner_families(m: LpModel) -> None:
         m.shortfall_col[node.id] = short
         m.demand_row[node.id] = m.add_row(inflow + m.var(short) - node.need_w * factor >= 0,
                                           Row(f"dem{tag}", "demand", node.id))
-        if node.max_w is not None:
+        if node.max_w is not None and node.in_service:
             m.max_row[node.id] = m.add_row(inflow <= node.max_w,
                                            Row(f"cap{tag}", "max-power", node.id))
 

@@ -31,6 +31,10 @@ def _scanners(network: Network, flows: Flows, source_w: dict[str, float]
     out = []
     for node in network.scanners:
         delivered = flows.incident_w[node.id]
+        if not node.in_service:
+            out.append(ScannerResult(node.id, node.need_w, 0.0, node.max_w, node.priority, 0.0,
+                                     0.0, "out of service", (), node.provenance))
+            continue
         ratio = delivered / node.need_w
         short = max(node.need_w - delivered, 0.0)
         limits: tuple[str, ...] = ()
@@ -76,9 +80,12 @@ def _losses(network: Network, flows: Flows, source_total: float) -> Losses:
     by_kind: dict[str, float] = defaultdict(float)
     absorbed = dumped = delivered = 0.0
     for node in network.nodes:
-        if node.is_scanner:
+        if node.is_scanner and not node.in_service:
+            dumped += flows.incident_w[node.id]
+        elif node.is_scanner:
             delivered += flows.incident_w[node.id]
-        elif node.behaviour is Behaviour.ABSORB:
+        elif node.behaviour is Behaviour.ABSORB or (not node.in_service
+                                                    and not node.is_source):
             dumped += flows.absorbed_w[node.id]
         elif not node.is_source:
             absorbed += flows.absorbed_w[node.id]
@@ -100,8 +107,9 @@ def solve_model(model: LpModel, backend: Backend, goal: str) -> Plan:
     sources = tuple(SourceResult(n.id, n.available_w, flows.incident_w[n.id], n.electrical_w)
                     for n in network.sources)
     scanners = _scanners(network, flows, source_w)
-    factor = min((s.delivered_w / s.need_w for s in scanners), default=0.0)
-    status = "met" if all(s.status == "met" for s in scanners) else "short"
+    serving = [s for s in scanners if s.status != "out of service"]
+    factor = min((s.delivered_w / s.need_w for s in serving), default=0.0)
+    status = "met" if all(s.status == "met" for s in serving) else "short"
     total = sum(s.output_w for s in sources)
     plan = Plan(layout=network.name, file=network.file, sha256=network.sha256, goal=goal,
                 status=status, headroom_factor=factor, sources=sources, scanners=scanners,
