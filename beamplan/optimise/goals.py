@@ -20,8 +20,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from beamplan.errors import InternalError
-from beamplan.optimise.backend import INF, Backend, RawSolution
 from beamplan.network.behaviour import Node
+from beamplan.optimise.backend import INF, Backend, RawSolution
 from beamplan.optimise.lp import LpModel
 
 __all__ = ["GOALS", "GoalOutcome", "run_goal"]
