@@ -80,20 +80,32 @@ class Network:
         """The link leaving each (node, port)."""
         return {(link.tail, link.port): link for link in self.links}
 
-    @property
+    @functools.cached_property
     def sources(self) -> tuple[Node, ...]:
         """The sources, in layout order."""
         return tuple(n for n in self.nodes if n.is_source)
 
-    @property
+    @functools.cached_property
     def scanners(self) -> tuple[Node, ...]:
         """The scanners, in layout order."""
         return tuple(n for n in self.nodes if n.is_scanner)
 
-    @property
+    @functools.cached_property
     def elements(self) -> tuple[Node, ...]:
         """The elements (neither sources nor scanners), in topological order."""
         return tuple(n for n in self.nodes if not (n.is_source or n.is_scanner))
+
+    def with_nodes(self, changed: dict[str, Node]) -> Network:
+        """The same network with some nodes replaced (same ids, same links).
+
+        The link tables are shared with this network, so this is cheap.
+        """
+        nodes = tuple(changed.get(n.id, n) for n in self.nodes)
+        other = replace(self, nodes=nodes)
+        for name in ("in_links", "out_link"):
+            other.__dict__[name] = getattr(self, name)
+        other.__dict__["node"] = {**self.node, **changed}
+        return other
 
     def path_gain(self, scanner_id: str) -> float:
         """Best product of gains from any source to a scanner (adjustables at their max).

@@ -12,7 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from beamplan.errors import InternalError
-from beamplan.network.behaviour import Behaviour
+from beamplan.network.behaviour import Behaviour, Port
 from beamplan.network.graph import Network
 
 __all__ = [
@@ -191,6 +191,17 @@ class Flows:
     settings: dict[str, float | tuple[tuple[str, float], ...] | None]
 
 
+def _idle_fractions(ports: tuple[Port, ...]) -> list[float]:
+    """Shares of a splitter that receives nothing: lower bounds, topped up within bounds."""
+    fractions = [p.fraction_min for p in ports]
+    spare = 1.0 - sum(fractions)
+    for i, port in enumerate(ports):
+        add = min(spare, port.fraction_max - port.fraction_min)
+        fractions[i] += add
+        spare -= add
+    return fractions
+
+
 def propagate(network: Network, source_w: dict[str, float],
               lp_link_w: list[float], lp_share_w: dict[tuple[str, str | None], float]) -> Flows:
     """Push source outputs through the network with the LP's settings.
@@ -227,12 +238,8 @@ def propagate(network: Network, source_w: dict[str, float],
         elif b is Behaviour.SPLIT:
             shares = [max(lp_share_w[(node.id, p.name)], 0.0) for p in node.ports]
             total = sum(shares)
-            if total > 0:
-                fractions = [s / total for s in shares]
-            else:
-                fractions = [p.fraction_min for p in node.ports]
-                spare = 1.0 - sum(fractions)
-                fractions[0] += spare
+            fractions = ([s / total for s in shares] if total > 0
+                         else _idle_fractions(node.ports))
             settings[node.id] = tuple((str(p.name), f)
                                       for p, f in zip(node.ports, fractions, strict=True))
             lost = 0.0

@@ -1,0 +1,1 @@
+"""Analyses on top of the planner: what-if cases, outage sweeps, single points of failure."""
