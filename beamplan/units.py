@@ -148,6 +148,10 @@ _OFFSET_TEMPERATURE = {"degC": 273.15, "°C": 273.15, "C": 273.15, "celsius": 27
 
 _NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
 _QUANTITY_RE = re.compile(rf"^\s*({_NUMBER})\s*(.*?)\s*$")
+# What pint may be asked to read as a unit: a unit expression, not a stray number,
+# so that '1,5 kW', '3 kW 2' or '90 %%' are errors rather than 15 kW, 6 kW, 0.009.
+_UNIT_EXPRESSION = re.compile(
+    r"^[A-Za-zµμΩÅ°](?:[A-Za-zµμΩÅ°_]|\s*[/*·]\s*|\^-?\d+|\*\*-?\d+|(?<=[A-Za-z])\d|\s+(?=[A-Za-z]))*$")
 
 
 def _fast_parse(text: str, dim: Dimension) -> float | None:
@@ -173,8 +177,13 @@ def _pint_parse(text: str, dim: Dimension) -> float:
     try:
         quantity = ureg.Quantity(text)
     except Exception as exc:  # pint raises many exception types for bad input
-        raise UnitError(f"cannot read {text!r} as a quantity ({exc})",
-                        f"write a number and a unit, e.g. '{dim.example}'") from exc
+        match = _QUANTITY_RE.match(text)
+        unit = match.group(2) if match else ""
+        near = [u for u in dim.units if u and u.lower() == unit.lower()]
+        hint = (f"did you mean '{near[0]}'?" if near
+                else f"write a number and a unit, e.g. '{dim.example}'")
+        raise UnitError(f"cannot read {text!r} as {_article(dim.name)}: unknown unit "
+                        f"{unit!r}", hint) from exc
     if not hasattr(quantity, "dimensionality"):
         raise UnitError(f"cannot read {text!r} as a quantity",
                         f"write a number and a unit, e.g. '{dim.example}'")
@@ -254,9 +263,11 @@ def parse_quantity(value: Any, dimension: str, plain_unit: str | None = None) ->
         parsed = _fast_parse(value, dim)
         if parsed is None:
             _other_dimension(value, dim)
-            if not _QUANTITY_RE.match(value):
-                raise UnitError(f"expected a {dim.name}, got {value!r}",
-                                f"write a number and a unit, e.g. '{dim.example}'")
+            match = _QUANTITY_RE.match(value)
+            if not match or not _UNIT_EXPRESSION.match(match.group(2)):
+                raise UnitError(f"expected {_article(dim.name)}, got {value!r}",
+                                f"write one number (with a decimal point, not a comma) and a "
+                                f"unit, e.g. '{dim.example}'")
             parsed = _pint_parse(value, dim)
         number = parsed
     else:

@@ -31,8 +31,8 @@ TOOL_KEYS: dict[str, tuple[str, str]] = {
 }
 
 
-def entries(ctx: Context, section: dict[str, Any], name: str, noun: str
-            ) -> list[tuple[str, dict[str, Any], Path]]:
+def entries(ctx: Context, section: dict[str, Any], name: str, noun: str,
+            example: str = "{power: 300 W}") -> list[tuple[str, dict[str, Any], Path]]:
     """The (id, settings, path) of each valid entry of a section; bad ones are reported."""
     out = []
     for item_id, settings in section.items():
@@ -45,7 +45,7 @@ def entries(ctx: Context, section: dict[str, Any], name: str, noun: str
         if not isinstance(settings, dict):
             ctx.error("bad-type", f"{noun} '{item_id}': expected a mapping of settings, "
                       f"got {settings!r}", ctx.positions.value(path),
-                      "write e.g. '{power: 300 W}'")
+                      f"write e.g. '{example}'")
             continue
         out.append((item_id, settings, path))
     return out

@@ -150,7 +150,8 @@ def _switch(r: MapReader, common: Common) -> ElementSpec | None:
     select = r.text("select") or None
     if efficiency is None:
         return None
-    return SwitchSpec(efficiency=efficiency, select=select, **common)
+    where = r.value_loc("select") if select else None
+    return SwitchSpec(efficiency=efficiency, select=select, select_location=where, **common)
 
 
 def _splitter(r: MapReader, common: Common) -> ElementSpec | None:
@@ -161,7 +162,7 @@ def _splitter(r: MapReader, common: Common) -> ElementSpec | None:
     if len(outputs) < 2:
         r.ctx.error("too-few-outputs",
                     f"{r.subject}: a splitter needs two or more outputs, it has {len(outputs)}",
-                    r.value_loc("outputs"), "add outputs such as 'pick:' and 'pass:'")
+                    r.key_loc("outputs"), "add outputs such as 'pick:' and 'pass:'")
         return None
     specs: list[OutputSpec] = []
     ok = True
@@ -196,7 +197,7 @@ def _splitter(r: MapReader, common: Common) -> ElementSpec | None:
         total = low if low > 1.0 else high
         r.ctx.error("fractions-sum",
                     f"{r.subject}: the output fractions cannot sum to 1 (the {side} {total:g})",
-                    r.value_loc("outputs"),
+                    r.key_loc("outputs"),
                     "widen the fraction ranges so that lows sum to at most 1 and highs "
                     "to at least 1")
         return None
@@ -227,6 +228,11 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
     >>> read_element(r, "m1", None).reflectivity
     0.95
     """
+    if not r.has("kind"):
+        r.asked.add("kind")
+        r.ctx.error("missing-key", f"{r.subject}: 'kind' is required",
+                    r.ctx.positions.key(r.where), f"add 'kind:' with one of: {', '.join(KINDS)}")
+        return None
     kind = r.text("kind", required=True)
     r.text("part")
     note = r.text("note")
@@ -234,8 +240,7 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
     derate = r.fraction("derate", default=1.0)
     in_service = r.flag("in_service", default=True)
     if not kind:
-        r.finish()
-        return None
+        return None  # its other keys cannot be judged without a kind
     reader = KINDS.get(kind)
     if reader is None:
         hint = did_you_mean(kind, KINDS) or f"the kinds are: {', '.join(KINDS)}"

@@ -20,7 +20,7 @@ from beamplan.layout.model import (
     LinkSpec,
     SplitterSpec,
 )
-from beamplan.layout.reader import ID_PATTERN, Context, MapReader
+from beamplan.layout.reader import ID_PATTERN, MISSING, Context, MapReader
 from beamplan.layout.yamlpos import Path, YamlDocument, load_yaml
 
 __all__ = ["FORMAT_VERSION", "load_layout", "parse_layout"]
@@ -47,7 +47,8 @@ def _read_elements(ctx: Context, section: dict[str, Any], parts: dict[str, Any]
                    ) -> tuple[list[ElementSpec], set[str]]:
     used_parts: set[str] = set()
     out: list[ElementSpec] = []
-    for eid, settings, path in entries(ctx, section, "elements", "element"):
+    for eid, settings, path in entries(ctx, section, "elements", "element",
+                                         "{kind: mirror, reflectivity: 0.9}"):
         merged: dict[str, Any] = {}
         paths: dict[str, Path] = {}
         part = settings.get("part")
@@ -55,6 +56,11 @@ def _read_elements(ctx: Context, section: dict[str, Any], parts: dict[str, Any]
         if part is not None:
             part = str(part)
             template = parts.get(part)
+            if part in parts and not isinstance(template, dict):
+                ctx.error("bad-type", f"part '{part}' must be a mapping of element settings, "
+                          f"got {template!r}", ctx.positions.value(("parts", part)),
+                          "e.g. '{kind: mirror, reflectivity: 0.95}'")
+                continue
             if not isinstance(template, dict):
                 hint = did_you_mean(part, parts) or (
                     f"the parts are: {', '.join(parts)}" if parts else "define it under 'parts:'")
@@ -86,11 +92,13 @@ def _token_column(doc_lines: list[str], loc: Location) -> int:
 
 def _read_beamlines(ctx: Context, top: MapReader, lines: list[str]) -> list[LinkSpec]:
     value = top.raw("beamlines", required=True, example="['fel-1 -> m1 -> litho-01']")
-    if not isinstance(value, list):
-        if isinstance(value, (str, dict)):
-            ctx.error("bad-type", "'beamlines' must be a list of chains such as "
-                      "'fel-1 -> m1 -> litho-01'", top.value_loc("beamlines"),
-                      "write each chain on its own line starting with '- '")
+    if value is MISSING:
+        return []
+    if not isinstance(value, list) or not value:
+        what = "is empty" if isinstance(value, list) else f"must be a list, got {value!r}"
+        ctx.error("bad-type", f"'beamlines' {what}: give a list of chains such as "
+                  "'fel-1 -> m1 -> litho-01'", top.value_loc("beamlines"),
+                  "write each chain on its own line starting with '- '")
         return []
     links: list[LinkSpec] = []
     for index, chain in enumerate(value):
@@ -128,9 +136,11 @@ def _read_beamlines(ctx: Context, top: MapReader, lines: list[str]) -> list[Link
 
 
 def _check_links(ctx: Context, links: list[LinkSpec], items: dict[str, Any]) -> None:
+    reported: set[Location] = set()
     for link in links:
         for end, loc in ((link.tail, link.tail_location), (link.head, link.head_location)):
-            if end not in items:
+            if end not in items and loc not in reported:
+                reported.add(loc)
                 hint = did_you_mean(end, items) or "define it under sources, elements or scanners"
                 ctx.error("unknown-id", f"beamline link {link.label}: unknown id '{end}'", loc,
                           hint)
@@ -181,7 +191,9 @@ def parse_layout(doc: YamlDocument) -> Layout:
     top = MapReader(ctx, doc.data, {k: (k,) for k in doc.data}, "layout", ())
     name = top.text("layout", required=True)
     fmt = top.integer("format", default=-1)
-    if fmt != FORMAT_VERSION:
+    given_int = isinstance(doc.data.get("format"), int) and not isinstance(
+        doc.data.get("format"), bool)
+    if fmt != FORMAT_VERSION and (given_int or "format" not in doc.data):
         shown = "missing" if fmt == -1 else f"{fmt}"
         ctx.error("bad-format", f"layout 'format' is {shown}; this beamplan reads format "
                   f"{FORMAT_VERSION}", top.value_loc("format"), f"write 'format: {FORMAT_VERSION}'")

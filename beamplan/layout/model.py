@@ -222,6 +222,7 @@ class SwitchSpec(ElementSpec):
 
     efficiency: float = 1.0
     select: str | None = None
+    select_location: Location | None = field(default=None, compare=False)
 
     @property
     def single_input(self) -> bool:

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import enum
 from collections.abc import Callable
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 from beamplan.errors import Location
@@ -57,6 +57,7 @@ class Port:
     efficiency: float = 1.0
     fraction_min: float = 0.0
     fraction_max: float = 1.0
+    location: Location | None = field(default=None, compare=False)
 
 
 _NOWHERE = Location("<layout>", 1, 1)
@@ -91,6 +92,7 @@ class Node:
     location: Location = _NOWHERE
     demand: Any = None  # beamplan.network.derive.ScannerDemand for scanners with a model
     in_service: bool = True
+    select_location: Location | None = field(default=None, compare=False)
 
     @property
     def is_source(self) -> bool:
@@ -147,7 +149,7 @@ def _attenuator(spec: ElementSpec, optics: Optics) -> dict[str, object]:
 
 def _splitter(spec: ElementSpec, optics: Optics) -> dict[str, object]:
     assert isinstance(spec, SplitterSpec)
-    ports = tuple(Port(o.name, o.efficiency, o.fraction_min, o.fraction_max)
+    ports = tuple(Port(o.name, o.efficiency, o.fraction_min, o.fraction_max, o.location)
                   for o in spec.outputs)
     return {"behaviour": Behaviour.SPLIT, "ports": ports, "provenance": GIVEN}
 
@@ -155,7 +157,8 @@ def _splitter(spec: ElementSpec, optics: Optics) -> dict[str, object]:
 def _switch(spec: ElementSpec, optics: Optics) -> dict[str, object]:
     assert isinstance(spec, SwitchSpec)
     return {"behaviour": Behaviour.COMBINE, "gain_min": spec.efficiency,
-            "gain_max": spec.efficiency, "select": spec.select, "provenance": GIVEN}
+            "gain_max": spec.efficiency, "select": spec.select, "provenance": GIVEN,
+            "select_location": spec.select_location}
 
 
 def _dump(spec: ElementSpec, optics: Optics) -> dict[str, object]:

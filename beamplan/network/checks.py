@@ -60,14 +60,16 @@ def check_graph(layout: Layout, nodes: dict[str, Node], links: tuple[Link, ...]
             name = f"{link.tail}.{link.port}" if link.port else link.tail
             hint = ("put a splitter here to share the beam" if tail.behaviour
                     is not Behaviour.SPLIT else "connect each output once")
-            out.append(_err("output-reused", f"link {link.label}: the output of '{name}' "
-                            f"already feeds '{previous.head}'", link, hint))
+            out.append(Diagnostic("error", "output-reused", f"link {link.label}: the output of "
+                                  f"'{name}' already feeds '{previous.head}'",
+                                  link.tail_location, hint))
         seen_port[(link.tail, link.port)] = link
         fan_in.setdefault(link.head, []).append(link)
     for head_id, feeding in fan_in.items():
         fed = nodes[head_id]
         if len(feeding) > 1 and fed.behaviour is not Behaviour.COMBINE:
-            tails = ", ".join(f"'{f.tail}'" for f in feeding)
+            tails = ", ".join(f"'{f.tail}.{f.port}'" if f.port else f"'{f.tail}'"
+                              for f in feeding)
             out.append(_err("fan-in", f"{_noun(fed)} '{head_id}' is fed by {len(feeding)} links "
                             f"({tails}); it takes one input", feeding[1],
                             "use a switch to bring several beams together"))
@@ -75,9 +77,10 @@ def check_graph(layout: Layout, nodes: dict[str, Node], links: tuple[Link, ...]
         if node.behaviour is Behaviour.COMBINE and node.select is not None:
             inputs = [f.tail for f in fan_in.get(node.id, [])]
             if node.select not in inputs:
-                out.append(_err("bad-select", f"switch '{node.id}': select '{node.select}' is "
-                                "not one of its inputs", node,
-                                f"its inputs are: {', '.join(inputs) or 'none'}"))
+                out.append(Diagnostic("error", "bad-select", f"switch '{node.id}': select "
+                                      f"'{node.select}' is not one of its inputs or upstream "
+                                      "of one", node.select_location or node.location,
+                                      f"its inputs are: {', '.join(inputs) or 'none'}"))
     order: list[str] = []
     try:
         cycle = nx.find_cycle(graph)
@@ -85,11 +88,11 @@ def check_graph(layout: Layout, nodes: dict[str, Node], links: tuple[Link, ...]
         order = list(nx.lexicographical_topological_sort(graph, key=_layout_rank(layout)))
     else:
         ring = " -> ".join([str(e[0]) for e in cycle] + [str(cycle[0][0])])
-        first = links[cycle[0][2]]
-        out.append(_err("cycle", f"the beamlines form a loop: {ring}", first,
+        closing = max((links[e[2]] for e in cycle), key=lambda lk: lk.location)
+        out.append(_err("cycle", f"the beamlines form a loop: {ring}", closing,
                         "a beam cannot return to an element it has passed"))
         return out, order
-    out.extend(_reachability(nodes, graph, seen_port))
+    out.extend(_reachability(nodes, graph, seen_port, fan_in))
     return out, order
 
 
@@ -99,7 +102,8 @@ def _layout_rank(layout: Layout) -> object:
 
 
 def _reachability(nodes: dict[str, Node], graph: nx.MultiDiGraph,
-                  used: dict[tuple[str, str | None], Link]) -> list[Diagnostic]:
+                  used: dict[tuple[str, str | None], Link],
+                  into: dict[str, list[Link]]) -> list[Diagnostic]:
     out: list[Diagnostic] = []
     sources = [n for n in nodes.values() if n.is_source]
     reached: set[str] = set()
@@ -124,13 +128,16 @@ def _reachability(nodes: dict[str, Node], graph: nx.MultiDiGraph,
             if (node.id, port.name) in used:
                 continue
             if node.behaviour is Behaviour.SPLIT:
-                out.append(_err("open-output", f"splitter '{node.id}' output '{port.name}' is "
-                                "not connected", node,
-                                f"continue a beamline from '{node.id}.{port.name}', or send it "
-                                "to a dump"))
+                out.append(Diagnostic("error", "open-output", f"splitter '{node.id}' output "
+                                      f"'{port.name}' is not connected",
+                                      port.location or node.location,
+                                      f"continue a beamline from '{node.id}.{port.name}', or "
+                                      "send it to a dump"))
             elif not node.is_scanner and node.id in reached:
-                out.append(_err("dangling", f"{_noun(node)} '{node.id}' sends its beam nowhere",
-                                node, "continue the beamline to a scanner or a dump"))
+                ends = [lk.location for lk in into.get(node.id, [])]
+                out.append(Diagnostic("error", "dangling", f"{_noun(node)} '{node.id}' sends "
+                                      "its beam nowhere", max(ends, default=node.location),
+                                      "continue the beamline to a scanner or a dump"))
     return out
 
 

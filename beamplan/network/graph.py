@@ -34,6 +34,7 @@ class Link:
     head: str
     port: str | None = None
     location: Location = _NOWHERE
+    tail_location: Location = _NOWHERE
 
     @property
     def label(self) -> str:
@@ -222,8 +223,8 @@ def build_network(layout: Layout) -> Network:
     from beamplan.network.checks import check_graph, heat_limit_warnings
 
     nodes, physics_errors = _nodes(layout)
-    links = tuple(Link(i, spec.tail, spec.head, spec.port, spec.head_location)
-                  for i, spec in enumerate(layout.links))
+    links = tuple(Link(i, spec.tail, spec.head, spec.port, spec.head_location,
+                       spec.tail_location) for i, spec in enumerate(layout.links))
     problems, order = check_graph(layout, nodes, links)
     problems = [*physics_errors, *problems]
     if any(p.is_error for p in problems):

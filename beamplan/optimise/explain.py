@@ -1,23 +1,28 @@
 """Explain a plan in a designer's words: binding constraints and shortfalls.
 
-Shadow prices come from the goal's primary LP stage (the one that sets the
-headroom factor, the source power, or the shortfall). With every stage a
-minimisation, a row's dual ``y`` is d(objective)/d(right-hand side):
+Every LP stage is a minimisation, so a row's dual ``y`` is
+d(objective)/d(right-hand side). In the user's terms:
 
-* headroom (objective −t): d t / d rhs = −y;
-* min-source (objective Σ source W): d source / d rhs = y;
-* shortfall (objective Σ weighted shortfall W): d shortfall / d rhs = y.
+* headroom (objective −t): the lowest factor moves by −y per unit of the bound;
+* min-source (objective Σ source W): the source power moves by y;
+* shortfall (objective Σ weighted shortfall W): the weighted shortfall moves by y.
 
 Share and range bounds are coefficients, not right-hand sides: raising a
 bound f in ``s − f·in ≤ 0`` by Δ moves the row's right-hand side by Δ·in, so
-its price per unit of the bound is the row's price times the input.
+its price per unit of the bound is the row's price times the input. Prices
+are stated per W, or per percentage point of a share or transmission bound.
+
+A short scanner's limits are the constraints that are priced in the LP stage
+where the scanner was frozen (progressive filling), or in the elastic stage:
+by complementary slackness these, and only these, hold its level down.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
 
-from beamplan.network.behaviour import Behaviour
+import numpy as np
+
 from beamplan.network.graph import Network
 from beamplan.optimise.goals import GoalOutcome
 from beamplan.optimise.lp import LpModel, Row
@@ -28,8 +33,8 @@ __all__ = ["binding_constraints", "shortfall_limits"]
 
 _FAMILIES = ("heat", "available", "max-power", "share-low", "share-high", "range-low",
              "range-high", "demand")
+_PER_POINT = ("share-low", "share-high", "range-low", "range-high")
 PRICE_TOL = 1e-9
-TIGHT_RTOL = 1e-6
 
 
 def _describe(row: Row, network: Network) -> str:
@@ -53,38 +58,34 @@ def _describe(row: Row, network: Network) -> str:
 
 
 def _price(row: Row, dual: float, primary: str, flows: Flows) -> tuple[float, str]:
-    """The shadow price in the goal's terms and its unit."""
-    per_coefficient = row.family in ("share-low", "share-high", "range-low", "range-high")
-    scale = flows.incident_w[row.node] if per_coefficient else 1.0
-    sign = -1.0 if primary == "factor" else 1.0
-    price = sign * dual * scale
-    unit = "per unit of the bound" if per_coefficient else "per W"
-    return price, unit
+    """The rate of change of the goal's own quantity per unit of the bound."""
+    if row.family in _PER_POINT:
+        per = -dual * flows.incident_w[row.node] / 100.0  # per percentage point
+        unit = "per percentage point"
+    else:
+        per, unit = -dual, "per W"
+    return (per if primary == "factor" else -per), unit
 
 
-def _meaning(row: Row, price: float, unit: str, primary: str, bottleneck: Sequence[tuple[str,
-             float]]) -> str:
-    step = "1 percentage point more" if unit != "per W" else "1 W more"
+def _meaning(row: Row, price: float, unit: str, primary: str,
+             bottleneck: Sequence[tuple[str, float]], tiers: int) -> str:
     if row.family == "demand":
         if primary == "source":
             return f"each W more needed here costs {price:.3g} W of source power"
-        return f"each W more needed here changes the objective by {price:.3g}"
-    if row.family in ("share-high", "range-high", "available", "heat", "max-power"):
-        verb = "raises"
-    else:
-        verb = "lowers"
-        price = -price
-    amount = price / 100.0 if unit != "per W" else price
-    if row.family in ("share-low", "range-low"):
-        step = "1 percentage point less"
+        return f"each W more needed here adds {price:.3g} W of weighted shortfall"
+    step = "1 W more" if unit == "per W" else "1 percentage point more"
     if primary == "factor":
-        gains = ", ".join(f"{sid} +{amount * need:.3g} W" for sid, need in bottleneck[:3])
+        verb = "raises" if price >= 0 else "lowers"
+        gains = ", ".join(f"{sid} {price * need:+.3g} W" for sid, need in bottleneck[:3])
         more = " ..." if len(bottleneck) > 3 else ""
-        return (f"{step} {verb} the lowest headroom factor by {amount:.3g} "
-                f"({gains}{more})")
+        return f"{step} {verb} the lowest headroom factor by {abs(price):.3g} ({gains}{more})"
     if primary == "source":
-        return f"{step} saves {amount:.3g} W of source power"
-    return f"{step} cuts the weighted shortfall by {amount:.3g} W"
+        verb = "costs" if price > 0 else "saves"
+        return f"{step} {verb} {abs(price):.3g} W of source power"
+    verb = "adds" if price > 0 else "cuts"
+    what = "the shortfall" if tiers <= 1 else "the tier-weighted shortfall (a tier-1 W counts " \
+        "1000× a tier-2 W)"
+    return f"{step} {verb} {abs(price):.3g} W of {what}"
 
 
 def binding_constraints(model: LpModel, outcome: GoalOutcome, flows: Flows
@@ -99,92 +100,84 @@ def binding_constraints(model: LpModel, outcome: GoalOutcome, flows: Flows
     ['m3']
     """
     network = model.network
-    lowest = min(outcome.levels.values(), default=0.0)
-    bottleneck = [(s.id, s.need_w) for s in network.scanners
-                  if abs(outcome.levels.get(s.id, 0.0) - lowest) <= 1e-9 * max(lowest, 1.0)]
+    bottleneck = [(sid, network.node[sid].need_w) for sid in outcome.first_frozen]
+    tiers = len({s.priority for s in network.scanners})
     out: list[Binding] = []
+    duals = outcome.primary_duals
     for index, row in enumerate(model.row_info):
-        if row.family not in _FAMILIES:
+        if row.family not in _FAMILIES or not len(duals):
             continue
         if row.family == "demand" and outcome.primary == "factor":
             continue  # the factor's own rows: their price is the factor itself
         if row.family == "range-high" and network.node[row.node].gain_max >= 1.0:
             continue  # full transmission cannot be raised further
-        dual = float(outcome.primary_duals[index]) if len(outcome.primary_duals) else 0.0
+        dual = float(duals[index])
         if abs(dual) <= PRICE_TOL:
             continue
         price, unit = _price(row, dual, outcome.primary, flows)
         out.append(Binding(row.name, row.family, row.node, _describe(row, network), price, unit,
-                           _meaning(row, price, unit, outcome.primary, bottleneck)))
+                           _meaning(row, price, unit, outcome.primary, bottleneck, tiers)))
     out.sort(key=lambda b: (-abs(b.shadow_price), b.constraint))
     return tuple(out)
 
 
-def _ancestors(network: Network, node_id: str) -> list[str]:
-    seen: list[str] = []
+def _ancestors(network: Network, node_id: str) -> set[str]:
+    seen: set[str] = set()
     stack = [node_id]
     while stack:
-        current = stack.pop()
-        for link in network.in_links[current]:
+        for link in network.in_links[stack.pop()]:
             if link.tail not in seen:
-                seen.append(link.tail)
+                seen.add(link.tail)
                 stack.append(link.tail)
     return seen
 
 
-def _on_path_port(network: Network, splitter: str, upstream_of: set[str]) -> set[str | None]:
-    return {p.name for p in network.node[splitter].ports
-            if network.out_link[(splitter, p.name)].head in upstream_of}
-
-
-def shortfall_limits(network: Network, scanner_id: str, flows: Flows, delivered_w: float,
-                     source_w: dict[str, float]) -> tuple[str, ...]:
+def shortfall_limits(model: LpModel, outcome: GoalOutcome, scanner_id: str,
+                     delivered_w: float) -> tuple[str, ...]:
     """Plain-word reasons why more power cannot reach a short scanner.
 
-    Lists the limits that are reached on the scanner's paths from the sources:
-    drawn-out sources, heat limits at their value, splitter shares at a bound,
-    attenuators at full transmission, and the scanner's own max_power.
+    Examples
+    --------
+    >>> import beamplan
+    >>> plan = beamplan.plan("layouts/overbooked.yaml")
+    >>> short = [s for s in plan.scanners if s.status == "short"]
+    >>> all(s.limits for s in short)
+    True
     """
+    network = model.network
     node = network.node[scanner_id]
     ups = _ancestors(network, scanner_id)
-    downstream = {scanner_id, *ups}
-    reasons: list[str] = [f"{network.node[u].kind} '{u}' on its path is out of service"
-                          for u in ups if not network.node[u].in_service]
+    reasons = [f"{network.node[u].kind} '{u}' on its path is out of service"
+               for u in sorted(ups) if not network.node[u].in_service]
     if network.max_gains[scanner_id] <= 0.0:
         return tuple(reasons) or ("no path from a source passes any power (a gain of zero on "
                                   "every path)",)
     if node.max_w is not None and node.max_w < node.need_w:
         reasons.append(f"its max_power ({format_power(node.max_w)}) is below its need")
-    for uid in ups:
-        up = network.node[uid]
-        incident = flows.incident_w[uid]
-        if up.is_source and source_w[uid] >= up.available_w * (1 - TIGHT_RTOL):
-            reasons.append(f"source '{uid}' is fully drawn ({format_power(up.available_w)})")
-        if up.heat_limit_w is not None and \
-                flows.absorbed_w[uid] >= up.heat_limit_w * (1 - TIGHT_RTOL):
-            reasons.append(f"{up.kind} '{uid}' is at its heat limit "
-                           f"({format_power(up.heat_limit_w)} absorbed)")
-        if up.behaviour is Behaviour.SPLIT and incident > 0:
-            setting = dict(flows.settings[uid] or ())  # type: ignore[arg-type]
-            ours = _on_path_port(network, uid, downstream)
-            for port in up.ports:
-                share = setting.get(str(port.name), 0.0)
-                if port.name in ours and port.fraction_max < 1 and \
-                        share >= port.fraction_max - 1e-9:
-                    reasons.append(f"splitter '{uid}' output '{port.name}' is at its upper "
-                                   f"share bound ({port.fraction_max:.1%})")
-                if port.name not in ours and port.fraction_min > 0 and \
-                        share <= port.fraction_min + 1e-9:
-                    reasons.append(f"splitter '{uid}' must send at least "
-                                   f"{port.fraction_min:.1%} to output '{port.name}'")
-        at_top = up.behaviour is Behaviour.RANGE and incident > 0 and \
-            (flows.settings[uid] or 0.0) >= up.gain_max - 1e-9  # type: ignore[operator]
-        if at_top:
-            reasons.append(f"attenuator '{uid}' is at its highest transmission "
-                           f"({up.gain_max:.1%})")
+    duals = outcome.freeze_duals.get(scanner_id, np.empty(0))
+    # One elastic LP serves every scanner: keep the rows on this scanner's paths.
+    relevant = ups | {scanner_id} if outcome.primary == "shortfall" else None
+    sharing = []
+    for index in np.flatnonzero(np.abs(duals) > PRICE_TOL) if len(duals) else []:
+        row = model.row_info[int(index)]
+        if relevant is not None and row.node not in relevant:
+            continue
+        if row.family == "demand":
+            if row.node != scanner_id:
+                sharing.append(row.node)
+            continue
+        if row.family not in _FAMILIES:
+            continue
+        if row.family == "range-high" and network.node[row.node].gain_max >= 1.0:
+            continue
+        reasons.append(_describe(row, network) + " is reached")
+    if sharing:
+        names = ", ".join(sorted(sharing)[:4]) + (" ..." if len(sharing) > 4 else "")
+        reasons.append(f"the power it could get is shared with {names}, held at their own "
+                       "levels")
     if not reasons:
         reasons.append("the available power is shared with the other scanners at the same "
                        "headroom factor")
     if delivered_w <= 0.0:
         reasons.insert(0, "it receives no power")
-    return tuple(reasons)
+    return tuple(dict.fromkeys(reasons))

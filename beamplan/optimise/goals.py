@@ -15,7 +15,7 @@ so the scanner cannot rise without lowering another.
 from __future__ import annotations
 
 from collections.abc import Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -46,6 +46,8 @@ class GoalOutcome:
     primary_value: float
     levels: dict[str, float]
     stages: int
+    freeze_duals: dict[str, np.ndarray] = field(default_factory=dict)
+    first_frozen: tuple[str, ...] = ()
 
 
 class _Driver:
@@ -54,6 +56,8 @@ class _Driver:
         self.b = backend
         self.stages = 0
         self.first: RawSolution | None = None
+        self.freeze_duals: dict[str, np.ndarray] = {}
+        self.first_frozen: list[str] = []
 
     def solve(self, allow_infeasible: bool = False) -> RawSolution:
         sol = self.b.solve()
@@ -107,8 +111,11 @@ class _Driver:
             blocked = [s for s in todo if duals[self.m.demand_row[s]] > DUAL_TOL]
             if level >= high * (1.0 - 1e-12) or not blocked:
                 blocked = list(todo)  # at the cap, or no dual certificate: freeze all
+            if not self.first_frozen:
+                self.first_frozen = list(blocked)
             for sid in blocked:
                 levels[sid] = level
+                self.freeze_duals[sid] = duals
                 self.demand_fixed(sid, level)
             todo = [s for s in todo if s not in levels]
             low = level
@@ -143,7 +150,7 @@ def _headroom(d: _Driver) -> GoalOutcome:
     final = d.frugal()
     first = d.first or final
     return GoalOutcome(final, "factor", first.row_duals, float(first.columns[d.m.factor_col]),
-                       levels, d.stages)
+                       levels, d.stages, d.freeze_duals, tuple(d.first_frozen))
 
 
 def _weights(d: _Driver) -> dict[str, float]:
@@ -171,8 +178,9 @@ def _min_source(d: _Driver) -> GoalOutcome:
     final = d.solve()
     levels = {s.id: 1.0 - float(final.columns[d.m.shortfall_col[s.id]]) / s.need_w
               for s in d.scanners}
+    short_ids = tuple(s for s in weights if levels[s] < 1.0)
     return GoalOutcome(final, "shortfall", elastic.row_duals, elastic.objective, levels,
-                       d.stages)
+                       d.stages, {s: elastic.row_duals for s in weights}, short_ids)
 
 
 def _priority(d: _Driver) -> GoalOutcome:
@@ -193,7 +201,7 @@ def _priority(d: _Driver) -> GoalOutcome:
     final = d.frugal()
     first = d.first or final
     return GoalOutcome(final, "factor", first.row_duals, float(first.columns[d.m.factor_col]),
-                       levels, d.stages)
+                       levels, d.stages, d.freeze_duals, tuple(d.first_frozen))
 
 
 def run_goal(model: LpModel, backend: Backend, goal: str) -> GoalOutcome:

@@ -21,13 +21,14 @@ from beamplan.optimise.result import (
     verify,
 )
 
-__all__ = ["MET_RTOL", "plan_network", "solve_model"]
+__all__ = ["MET_RTOL", "finish_plan", "plan_network", "solve_model"]
 
 MET_RTOL = 1e-6  # a scanner within this relative distance of its need counts as met
 
 
-def _scanners(network: Network, flows: Flows, source_w: dict[str, float]
+def _scanners(model: LpModel, outcome: GoalOutcome, flows: Flows
               ) -> tuple[ScannerResult, ...]:
+    network = model.network
     out = []
     for node in network.scanners:
         delivered = flows.incident_w[node.id]
@@ -42,7 +43,7 @@ def _scanners(network: Network, flows: Flows, source_w: dict[str, float]
             status, short = "met", 0.0
         else:
             status = "cut off" if delivered <= 1e-9 * node.need_w else "short"
-            limits = shortfall_limits(network, node.id, flows, delivered, source_w)
+            limits = shortfall_limits(model, outcome, node.id, delivered)
         extra = {}
         if node.demand is not None:
             from beamplan.physics.demand import throughput_at_power
@@ -97,8 +98,12 @@ def _losses(network: Network, flows: Flows, source_total: float) -> Losses:
 
 def solve_model(model: LpModel, backend: Backend, goal: str) -> Plan:
     """Run ``goal`` on a built model and return the verified :class:`Plan`."""
+    return finish_plan(model, backend, run_goal(model, backend, goal), goal)
+
+
+def finish_plan(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: str) -> Plan:
+    """Turn a goal's final LP solution into a propagated, explained, verified plan."""
     network = model.network
-    outcome: GoalOutcome = run_goal(model, backend, goal)
     cols = outcome.solution.columns
     source_w = {sid: float(cols[col]) for sid, col in model.source_col.items()}
     lp_link = [float(cols[model.link_col[link.index]]) for link in network.links]
@@ -106,7 +111,7 @@ def solve_model(model: LpModel, backend: Backend, goal: str) -> Plan:
     flows = propagate(network, source_w, lp_link, lp_share)
     sources = tuple(SourceResult(n.id, n.available_w, flows.incident_w[n.id], n.electrical_w)
                     for n in network.sources)
-    scanners = _scanners(network, flows, source_w)
+    scanners = _scanners(model, outcome, flows)
     serving = [s for s in scanners if s.status != "out of service"]
     factor = min((s.delivered_w / s.need_w for s in serving), default=0.0)
     status = "met" if all(s.status == "met" for s in serving) else "short"
