@@ -103,7 +103,8 @@ def _run(args: argparse.Namespace, build: Callable[[], dict[str, Any]]) -> int:
     try:
         document = build()
     except ValueError as exc:  # DemandError, ResonanceError and bad physical input
-        raise PhysicsError(" ".join(str(exc).split())) from exc
+        message = " ".join(str(exc).split()).replace("pass density_g_cm3", "give --density")
+        raise PhysicsError(message) from exc
     if args.json:
         sys.stdout.write(report.calc_json(document))
         sys.stdout.flush()
@@ -284,27 +285,33 @@ def _add_demand(calcs: Any) -> None:
               "target (--wph), or the throughput reached with a power at IF (--power), and "
               "whether the source or the stage sets it. A target beyond the stage exits 1.",
               _demand)
-    p.add_argument("--dose", required=True, help="recipe dose at the wafer, e.g. 30mJ/cm^2")
+    p.add_argument("--dose", required=True, metavar="DOSE",
+                   help="recipe dose at the wafer, e.g. 30mJ/cm^2")
     mode = p.add_mutually_exclusive_group(required=True)
-    mode.add_argument("--wph", help="throughput target, wafers per hour (150 or 150wph)")
-    mode.add_argument("--power", help="power delivered at IF, e.g. 300W")
-    p.add_argument("--wavelength", default="13.5nm",
+    mode.add_argument("--wph", metavar="RATE",
+                      help="throughput target, wafers per hour (150 or 150wph)")
+    mode.add_argument("--power", metavar="POWER", help="power delivered at IF, e.g. 300W")
+    p.add_argument("--wavelength", default="13.5nm", metavar="LENGTH",
                    help="wavelength for the photon energy of the floor (default %(default)s)")
     p.add_argument("--field", metavar="WIDTH:LENGTH",
                    help=f"exposure field (default {tool.field_width_m * 1e3:g}mm:"
                    f"{tool.field_length_m * 1e3:g}mm); the width is also the slit length")
-    p.add_argument("--field-width", help=f"field width (default {tool.field_width_m * 1e3:g} mm)")
-    p.add_argument("--field-length",
+    p.add_argument("--field-width", metavar="LENGTH",
+                   help=f"field width (default {tool.field_width_m * 1e3:g} mm)")
+    p.add_argument("--field-length", metavar="LENGTH",
                    help=f"field length (default {tool.field_length_m * 1e3:g} mm)")
     for name, option, dimension, what, unit, scale in _TOOL_OPTIONS:
         default = f"{getattr(tool, name) * scale:g}{' ' + unit if unit else ''}"
         p.add_argument(option, type=int if dimension is None else str,
+                       metavar="N" if dimension is None else dimension.upper(),
                        help=f"{what} (default {default})")
     floor = p.add_argument_group("stochastic dose floor (give all four, or none)")
-    floor.add_argument("--critical-area", help="critical area, e.g. 400nm^2")
-    floor.add_argument("--absorption", help="resist absorption coefficient, e.g. 5/um")
-    floor.add_argument("--thickness", help="resist thickness, e.g. 40nm")
-    floor.add_argument("--noise", help="tolerated relative shot noise, e.g. 5%%")
+    floor.add_argument("--critical-area", metavar="AREA", help="critical area, e.g. 400nm^2")
+    floor.add_argument("--absorption", metavar="PER_LENGTH",
+                       help="resist absorption coefficient, e.g. 5/um")
+    floor.add_argument("--thickness", metavar="LENGTH", help="resist thickness, e.g. 40nm")
+    floor.add_argument("--noise", metavar="FRACTION",
+                       help="tolerated relative shot noise, e.g. 5%%")
 
 
 def register(sub: Any) -> None:
@@ -332,12 +339,17 @@ def register(sub: Any) -> None:
     p = _leaf(calcs, "reflect", "reflectivity of a thick grazing-incidence mirror",
               "Fresnel reflectivity of one thick mirror surface with Névot–Croce roughness; "
               "δ and β from the Henke tables unless --delta-beta is given.", _reflect)
-    p.add_argument("--coating", default="Ru", help="coating formula (default %(default)s)")
-    p.add_argument("--density", help="coating density, e.g. 12.4g/cm^3 (default: tabulated)")
-    p.add_argument("--grazing", required=True, help="grazing angle, e.g. 5deg" + _RANGE)
-    p.add_argument("--wavelength", default="13.5nm", help="default %(default)s" + _RANGE)
-    p.add_argument("--roughness", default="0nm", help="rms roughness (default %(default)s)")
-    p.add_argument("--polarisation", default="0",
+    p.add_argument("--coating", default="Ru", metavar="FORMULA",
+                   help="coating formula (default %(default)s)")
+    p.add_argument("--density", metavar="DENSITY",
+                   help="coating density, e.g. 12.4g/cm^3 (default: tabulated)")
+    p.add_argument("--grazing", required=True, metavar="ANGLE",
+                   help="grazing angle, e.g. 5deg" + _RANGE)
+    p.add_argument("--wavelength", default="13.5nm", metavar="LENGTH",
+                   help="default %(default)s" + _RANGE)
+    p.add_argument("--roughness", default="0nm", metavar="LENGTH",
+                   help="rms roughness (default %(default)s)")
+    p.add_argument("--polarisation", default="0", metavar="P",
                    help="degree of polarisation along s, -1..1: +1 fully s, -1 fully p "
                    "(default %(default)s, unpolarised)")
     p.add_argument("--delta-beta", metavar="DELTA,BETA",
@@ -347,19 +359,26 @@ def register(sub: Any) -> None:
               "Reflectivity of a periodic multilayer (Parratt recursion, Névot–Croce "
               "roughness, Henke optical constants); --peak adds the peak and its bandwidth.",
               _multilayer)
-    p.add_argument("--pair", default="Mo/Si", help="ABSORBER/SPACER (default %(default)s)")
-    p.add_argument("--period", default="6.9nm", help="period d (default %(default)s)")
-    p.add_argument("--gamma", default="0.4", help="absorber share of d (default %(default)s)")
-    p.add_argument("--bilayers", type=int, default=50, help="periods N (default %(default)s)")
-    p.add_argument("--incidence", default="0deg",
+    p.add_argument("--pair", default="Mo/Si", metavar="A/S",
+                   help="ABSORBER/SPACER (default %(default)s)")
+    p.add_argument("--period", default="6.9nm", metavar="LENGTH",
+                   help="period d (default %(default)s)")
+    p.add_argument("--gamma", default="0.4", metavar="FRACTION",
+                   help="absorber share of d (default %(default)s)")
+    p.add_argument("--bilayers", type=int, default=50, metavar="N",
+                   help="periods N (default %(default)s)")
+    p.add_argument("--incidence", default="0deg", metavar="ANGLE",
                    help="angle from the normal (default %(default)s)" + _RANGE)
-    p.add_argument("--wavelength", default="13.5nm", help="default %(default)s" + _RANGE)
+    p.add_argument("--wavelength", default="13.5nm", metavar="LENGTH",
+                   help="default %(default)s" + _RANGE)
     p.add_argument("--capping", default="none", metavar="FORMULA:THICKNESS",
                    help="top layer, e.g. Ru:2nm (default %(default)s)")
-    p.add_argument("--substrate", default="SiO2", help="substrate formula (default %(default)s)")
-    p.add_argument("--roughness", default="0nm",
+    p.add_argument("--substrate", default="SiO2", metavar="FORMULA",
+                   help="substrate formula (default %(default)s)")
+    p.add_argument("--roughness", default="0nm", metavar="LENGTH",
                    help="rms roughness of every interface (default %(default)s)")
-    p.add_argument("--polarisation", default="0", help="-1..1, +1 fully s (default %(default)s)")
+    p.add_argument("--polarisation", default="0", metavar="P",
+                   help="-1..1, +1 fully s (default %(default)s)")
     p.add_argument("--density", action="append", metavar="FORMULA=DENSITY",
                    help="density of one material, e.g. Mo=10.2g/cm^3 (repeatable)")
     p.add_argument("--peak", action="store_true",
@@ -367,11 +386,16 @@ def register(sub: Any) -> None:
 
     p = _leaf(calcs, "gas", "transmission of a gas-filled drift",
               "Beer–Lambert transmission of a gas-filled drift (ideal gas, Henke f2).", _gas)
-    p.add_argument("--gas", required=True, help="'air' or a formula such as H2, He, Ar, N2")
-    p.add_argument("--pressure", required=True, help="pressure, e.g. 2Pa" + _RANGE)
-    p.add_argument("--temperature", default="295K", help="default %(default)s")
-    p.add_argument("--length", required=True, help="path length, e.g. 40m" + _RANGE)
-    p.add_argument("--wavelength", default="13.5nm", help="default %(default)s")
+    p.add_argument("--gas", required=True, metavar="GAS",
+                   help="'air' or a formula such as H2, He, Ar, N2")
+    p.add_argument("--pressure", required=True, metavar="PRESSURE",
+                   help="pressure, e.g. 2Pa" + _RANGE)
+    p.add_argument("--temperature", default="295K", metavar="TEMPERATURE",
+                   help="default %(default)s")
+    p.add_argument("--length", required=True, metavar="LENGTH",
+                   help="path length, e.g. 40m" + _RANGE)
+    p.add_argument("--wavelength", default="13.5nm", metavar="LENGTH",
+                   help="default %(default)s")
 
     _add_demand(calcs)
 
@@ -379,15 +403,20 @@ def register(sub: Any) -> None:
               "Planar-undulator resonance. With --k or --field: the resonant wavelength. "
               "With --target: the K and peak field that reach it. With --check and --k or "
               "--field: whether that wavelength is reachable (exit 1 when not).", _undulator)
-    p.add_argument("--energy", required=True, help="total electron energy, e.g. 1GeV")
-    p.add_argument("--period", required=True, help="undulator period, e.g. 2.8cm")
+    p.add_argument("--energy", required=True, metavar="ENERGY",
+                   help="total electron energy, e.g. 1GeV")
+    p.add_argument("--period", required=True, metavar="LENGTH", help="undulator period, e.g. 2.8cm")
     strength = p.add_mutually_exclusive_group()
-    strength.add_argument("--k", help="deflection parameter K (a plain number)")
-    strength.add_argument("--field", help="peak on-axis field, e.g. 0.9T")
+    strength.add_argument("--k", metavar="K", help="deflection parameter K (a plain number)")
+    strength.add_argument("--field", metavar="FIELD", help="peak on-axis field, e.g. 0.9T")
     goal = p.add_mutually_exclusive_group()
-    goal.add_argument("--target", help="wavelength to reach: report the K and field needed")
-    goal.add_argument("--check", help="declared wavelength: is it reachable with --k/--field?")
-    p.add_argument("--harmonic", type=int, default=1, help="odd harmonic (default %(default)s)")
-    p.add_argument("--tolerance", help="relative tolerance of --check (default 1%%)")
+    goal.add_argument("--target", metavar="LENGTH",
+                      help="wavelength to reach: report the K and field needed")
+    goal.add_argument("--check", metavar="LENGTH",
+                      help="declared wavelength: is it reachable with --k/--field?")
+    p.add_argument("--harmonic", type=int, default=1, metavar="N",
+                   help="odd harmonic (default %(default)s)")
+    p.add_argument("--tolerance", metavar="FRACTION",
+                   help="relative tolerance of --check (default 1%%)")
     p.add_argument("--tunable", action="store_true",
                    help="with --check: treat --k/--field as the largest the gap allows")
