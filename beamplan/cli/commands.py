@@ -111,6 +111,7 @@ def register(sub: Any) -> None:
     plan.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     plan.set_defaults(handler=_plan)
 
-    from beamplan.cli import calc
+    from beamplan.cli import analyses, calc
 
+    analyses.register(sub)
     calc.register(sub)

@@ -23,7 +23,7 @@ __all__ = ["PLAN_FORMAT", "csv_tables", "plan_document", "plan_json", "write_csv
 PLAN_FORMAT = "beamplan-plan/1"
 
 
-def _num(value: float | None) -> float | None:
+def rounded(value: float | None) -> float | None:
     if value is None:
         return None
     rounded = float(f"{value:.10g}")
@@ -34,8 +34,8 @@ def _setting(value: Any) -> Any:
     if value is None:
         return None
     if isinstance(value, tuple):
-        return {name: _num(fraction) for name, fraction in value}
-    return _num(value)
+        return {name: rounded(fraction) for name, fraction in value}
+    return rounded(value)
 
 
 def plan_document(plan: Plan, version: str) -> dict[str, Any]:
@@ -54,38 +54,40 @@ def plan_document(plan: Plan, version: str) -> dict[str, Any]:
         "layout": {"name": plan.layout, "file": plan.file, "sha256": plan.sha256},
         "goal": plan.goal,
         "status": plan.status,
-        "headroom_factor": _num(plan.headroom_factor),
-        "source_used_w": _num(plan.source_used_w),
-        "source_available_w": _num(plan.source_available_w),
-        "delivered_w": _num(plan.delivered_w),
-        "efficiency": _num(plan.efficiency),
-        "wavelength_m": _num(plan.wavelength_m),
-        "photon_energy_ev": _num(plan.photon_energy_ev),
-        "electrical_per_delivered": _num(plan.electrical_per_delivered),
-        "sources": [{"id": s.id, "available_w": _num(s.available_w), "output_w": _num(s.output_w),
-                     "electrical_w": _num(s.electrical_w)} for s in plan.sources],
-        "scanners": [{"id": s.id, "need_w": _num(s.need_w), "delivered_w": _num(s.delivered_w),
-                      "max_w": _num(s.max_w), "priority": s.priority,
-                      "headroom": _num(s.headroom), "shortfall_w": _num(s.shortfall_w),
+        "headroom_factor": rounded(plan.headroom_factor),
+        "source_used_w": rounded(plan.source_used_w),
+        "source_available_w": rounded(plan.source_available_w),
+        "delivered_w": rounded(plan.delivered_w),
+        "efficiency": rounded(plan.efficiency),
+        "wavelength_m": rounded(plan.wavelength_m),
+        "photon_energy_ev": rounded(plan.photon_energy_ev),
+        "electrical_per_delivered": rounded(plan.electrical_per_delivered),
+        "sources": [{"id": s.id, "available_w": rounded(s.available_w),
+                     "output_w": rounded(s.output_w), "electrical_w": rounded(s.electrical_w)}
+                    for s in plan.sources],
+        "scanners": [{"id": s.id, "need_w": rounded(s.need_w),
+                      "delivered_w": rounded(s.delivered_w),
+                      "max_w": rounded(s.max_w), "priority": s.priority,
+                      "headroom": rounded(s.headroom), "shortfall_w": rounded(s.shortfall_w),
                       "status": s.status, "limits": list(s.limits),
                       "need_provenance": s.need_provenance,
-                      "dose_mj_cm2": _num(None if s.dose_j_m2 is None else s.dose_j_m2 / 10),
-                      "dose_set_by": s.dose_set_by, "target_wph": _num(s.target_wph),
-                      "achieved_wph": _num(s.achieved_wph),
+                      "dose_mj_cm2": rounded(None if s.dose_j_m2 is None else s.dose_j_m2 / 10),
+                      "dose_set_by": s.dose_set_by, "target_wph": rounded(s.target_wph),
+                      "achieved_wph": rounded(s.achieved_wph),
                       "throughput_limit": s.throughput_limit} for s in plan.scanners],
-        "elements": [{"id": e.id, "kind": e.kind, "incident_w": _num(e.incident_w),
-                      "absorbed_w": _num(e.absorbed_w), "output_w": _num(e.output_w),
-                      "heat_limit_w": _num(e.heat_limit_w),
-                      "heat_margin_w": _num(e.heat_margin_w), "setting": _setting(e.setting),
-                      "gain": _num(e.gain), "provenance": e.provenance}
+        "elements": [{"id": e.id, "kind": e.kind, "incident_w": rounded(e.incident_w),
+                      "absorbed_w": rounded(e.absorbed_w), "output_w": rounded(e.output_w),
+                      "heat_limit_w": rounded(e.heat_limit_w),
+                      "heat_margin_w": rounded(e.heat_margin_w), "setting": _setting(e.setting),
+                      "gain": rounded(e.gain), "provenance": e.provenance}
                      for e in plan.elements],
-        "losses": {"source_w": _num(plan.losses.source_w),
-                   "delivered_w": _num(plan.losses.delivered_w),
-                   "absorbed_w": _num(plan.losses.absorbed_w),
-                   "dumped_w": _num(plan.losses.dumped_w),
-                   "absorbed_by_kind_w": {k: _num(v) for k, v in plan.losses.by_kind}},
+        "losses": {"source_w": rounded(plan.losses.source_w),
+                   "delivered_w": rounded(plan.losses.delivered_w),
+                   "absorbed_w": rounded(plan.losses.absorbed_w),
+                   "dumped_w": rounded(plan.losses.dumped_w),
+                   "absorbed_by_kind_w": {k: rounded(v) for k, v in plan.losses.by_kind}},
         "binding": [{"constraint": b.constraint, "family": b.family, "subject": b.subject,
-                     "description": b.description, "shadow_price": _num(b.shadow_price),
+                     "description": b.description, "shadow_price": rounded(b.shadow_price),
                      "unit": b.unit, "meaning": b.meaning} for b in plan.binding],
         "solver": {"name": plan.solver, "version": plan.solver_version,
                    "lp_stages": plan.stages},
@@ -99,7 +101,7 @@ def plan_json(plan: Plan, version: str) -> str:
     return json.dumps(plan_document(plan, version), indent=2, ensure_ascii=False) + "\n"
 
 
-def _table(header: list[str], rows: Iterable[list[Any]]) -> str:
+def csv_text(header: list[str], rows: Iterable[list[Any]]) -> str:
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
     writer.writerow(header)
@@ -117,27 +119,28 @@ def csv_tables(plan: Plan) -> dict[str, str]:
         return "" if s is None else str(s)
 
     return {
-        "sources.csv": _table(["id", "available_w", "output_w", "electrical_w"],
-                              ([s.id, _num(s.available_w), _num(s.output_w),
-                                _num(s.electrical_w)] for s in plan.sources)),
-        "scanners.csv": _table(["id", "need_w", "delivered_w", "max_w", "priority", "headroom",
+        "sources.csv": csv_text(["id", "available_w", "output_w", "electrical_w"],
+                              ([s.id, rounded(s.available_w), rounded(s.output_w),
+                                rounded(s.electrical_w)] for s in plan.sources)),
+        "scanners.csv": csv_text(["id", "need_w", "delivered_w", "max_w", "priority", "headroom",
                                 "shortfall_w", "status"],
-                               ([s.id, _num(s.need_w), _num(s.delivered_w), _num(s.max_w),
-                                 s.priority, _num(s.headroom), _num(s.shortfall_w), s.status]
+                               ([s.id, rounded(s.need_w), rounded(s.delivered_w), rounded(s.max_w),
+                                 s.priority, rounded(s.headroom), rounded(s.shortfall_w), s.status]
                                 for s in plan.scanners)),
-        "elements.csv": _table(["id", "kind", "incident_w", "absorbed_w", "output_w",
+        "elements.csv": csv_text(["id", "kind", "incident_w", "absorbed_w", "output_w",
                                 "heat_limit_w", "heat_margin_w", "setting", "gain"],
-                               ([e.id, e.kind, _num(e.incident_w), _num(e.absorbed_w),
-                                 _num(e.output_w), _num(e.heat_limit_w), _num(e.heat_margin_w),
-                                 setting(e.setting), _num(e.gain)] for e in plan.elements)),
-        "losses.csv": _table(["where", "power_w"],
-                             [["delivered", _num(plan.losses.delivered_w)],
-                              *([f"absorbed:{k}", _num(v)] for k, v in plan.losses.by_kind),
-                              ["dumped", _num(plan.losses.dumped_w)],
-                              ["source", _num(plan.losses.source_w)]]),
-        "binding.csv": _table(["constraint", "family", "subject", "shadow_price", "unit",
+                               ([e.id, e.kind, rounded(e.incident_w), rounded(e.absorbed_w),
+                                 rounded(e.output_w), rounded(e.heat_limit_w),
+                                 rounded(e.heat_margin_w),
+                                 setting(e.setting), rounded(e.gain)] for e in plan.elements)),
+        "losses.csv": csv_text(["where", "power_w"],
+                             [["delivered", rounded(plan.losses.delivered_w)],
+                              *([f"absorbed:{k}", rounded(v)] for k, v in plan.losses.by_kind),
+                              ["dumped", rounded(plan.losses.dumped_w)],
+                              ["source", rounded(plan.losses.source_w)]]),
+        "binding.csv": csv_text(["constraint", "family", "subject", "shadow_price", "unit",
                                "description"],
-                              ([b.constraint, b.family, b.subject, _num(b.shadow_price), b.unit,
+                              ([b.constraint, b.family, b.subject, rounded(b.shadow_price), b.unit,
                                 b.description] for b in plan.binding)),
     }
 

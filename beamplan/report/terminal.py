@@ -38,7 +38,7 @@ def _setting(element: ElementResult) -> str:
     return f"transmission {value:.1%}"
 
 
-def _table(title: str) -> Table:
+def titled_table(title: str) -> Table:
     return Table(title=title, title_justify="left", box=box.SIMPLE_HEAD, padding=(0, 1),
                  title_style="bold")
 
@@ -69,7 +69,7 @@ def _header(plan: Plan) -> Table:
 
 
 def _scanners(plan: Plan) -> Table:
-    table = _table("Scanners (IF power)")
+    table = titled_table("Scanners (IF power)")
     for name, justify in (("scanner", "left"), ("need", "right"), ("delivered", "right"),
                           ("headroom", "right"), ("max", "right"), ("status", "left")):
         table.add_column(name, justify=justify)  # type: ignore[arg-type]
@@ -83,7 +83,7 @@ def _scanners(plan: Plan) -> Table:
 
 
 def _elements(plan: Plan) -> Table:
-    table = _table("Elements (power in, absorbed and out; heat limit and its use)")
+    table = titled_table("Elements (power in, absorbed and out; heat limit and its use)")
     for name, justify in (("element", "left"), ("kind", "left"), ("in", "right"),
                           ("absorbed", "right"), ("out", "right"), ("heat limit", "right"),
                           ("use", "right")):
@@ -105,7 +105,7 @@ def _throughput(plan: Plan) -> Table | None:
     modelled = [s for s in plan.scanners if s.target_wph is not None]
     if not modelled:
         return None
-    table = _table("Throughput at the delivered power")
+    table = titled_table("Throughput at the delivered power")
     for name, justify in (("scanner", "left"), ("dose", "right"), ("set by", "left"),
                           ("target", "right"), ("achieved", "right"), ("limit", "left")):
         table.add_column(name, justify=justify)  # type: ignore[arg-type]
@@ -120,7 +120,7 @@ def _optics(plan: Plan) -> Table | None:
     computed = [e for e in plan.elements if e.provenance and e.provenance != GIVEN]
     if not computed:
         return None
-    table = _table("Computed optics (gain from physics)")
+    table = titled_table("Computed optics (gain from physics)")
     table.add_column("element")
     table.add_column("gain", justify="right")
     table.add_column("how", overflow="fold")
@@ -133,7 +133,7 @@ def _settings(plan: Plan) -> Table | None:
     chosen = [e for e in plan.elements if e.setting is not None]
     if not chosen:
         return None
-    table = _table("Settings chosen")
+    table = titled_table("Settings chosen")
     table.add_column("element")
     table.add_column("kind")
     table.add_column("setting", overflow="fold")
@@ -143,7 +143,7 @@ def _settings(plan: Plan) -> Table | None:
 
 
 def _losses(plan: Plan) -> Table:
-    table = _table("Where the source power goes")
+    table = titled_table("Where the source power goes")
     table.add_column("destination")
     table.add_column("power", justify="right")
     table.add_column("share", justify="right")
@@ -161,7 +161,7 @@ def _losses(plan: Plan) -> Table:
 def _binding(plan: Plan) -> Table | Text:
     if not plan.binding:
         return Text("No constraint binds the primary goal.")
-    table = _table("Binding constraints (shadow prices)")
+    table = titled_table("Binding constraints (shadow prices)")
     table.add_column("constraint", overflow="fold")
     table.add_column("marginal value", overflow="fold")
     for b in plan.binding:

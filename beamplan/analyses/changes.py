@@ -1,0 +1,244 @@
+"""The change language of what-if cases, applied to a loaded layout.
+
+A case is a list of changes applied in order to a copy of the base layout
+(frozen objects: the base is never touched), then re-checked like any
+layout. Changes:
+
+* ``drop: ID`` (or a list): remove scanners; the beam that fed each is dumped;
+* ``add: {scanner: ID, at: SPLITTER.OUTPUT, ...scanner keys}``: a new scanner
+  on a free splitter output (one that feeds a dump), or
+  ``add: {scanner: ID, behind: ELEMENT, part: PART, port: OUTPUT, ...}``: a new
+  splitter made from a part, inserted after an element, its ``port`` feeding
+  the scanner, its next output continuing the line, any others dumped;
+* ``set: {ID.KEY: VALUE, ...}`` and ``scale: {ID.KEY: FACTOR, ...}``: change a
+  numeric property of a source, element or scanner (see :data:`SETTABLE`);
+* ``fail: ID`` (or a list): take sources, elements or scanners out of service;
+* ``include: CASE``: apply another case's changes first.
+
+Every problem is a :class:`~beamplan.errors.Diagnostic` located at the change.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+from typing import Any
+
+from beamplan.errors import Diagnostic, Location, did_you_mean
+from beamplan.layout.model import (
+    AttenuatorSpec,
+    DumpSpec,
+    ElementSpec,
+    Layout,
+    LinkSpec,
+    MirrorSpec,
+    ScannerSpec,
+    SourceSpec,
+    SplitterSpec,
+)
+
+__all__ = ["SETTABLE", "Change", "ChangeError", "apply_change"]
+
+# Settable keys: the layout key -> (spec field, dimension). Scaling a computed
+# reflectivity or transmission scales the element's derate factor instead.
+SETTABLE: dict[str, dict[str, tuple[str, str]]] = {
+    "source": {"power": ("power_w", "power"), "electrical": ("electrical_w", "power")},
+    "element": {"heat_limit": ("heat_limit_w", "power"), "derate": ("derate", "fraction"),
+                "reflectivity": ("reflectivity", "fraction"),
+                "transmission": ("transmission", "fraction"),
+                "efficiency": ("efficiency", "fraction"),
+                "grazing": ("grazing_rad", "angle"), "incidence": ("incidence_rad", "angle"),
+                "roughness": ("roughness_m", "length")},
+    "scanner": {"power": ("need_w", "power"), "max_power": ("max_w", "power"),
+                "dose": ("dose_j_m2", "dose"), "wph": ("wafers_per_hour", "rate")},
+}
+
+
+@dataclass(frozen=True)
+class Change:
+    """One change of a case: its verb, its argument, and where it was written."""
+
+    verb: str
+    argument: Any
+    location: Location
+    case: str
+    index: int
+
+
+class ChangeError(Exception):
+    """A change that cannot be applied; carries its located diagnostic."""
+
+    def __init__(self, change: Change, message: str, hint: str = "") -> None:
+        super().__init__(message)
+        self.diagnostic = Diagnostic(
+            "error", "bad-change", f"case '{change.case}', change {change.index + 1} "
+            f"({change.verb}): {message}", change.location, hint)
+
+
+def _ids(layout: Layout) -> list[str]:
+    return list(layout.node_ids)
+
+
+def _missing(change: Change, layout: Layout, item_id: str, noun: str) -> ChangeError:
+    hint = did_you_mean(item_id, _ids(layout))
+    return ChangeError(change, f"no {noun} '{item_id}'", hint)
+
+
+def _as_list(change: Change) -> list[str]:
+    value = change.argument
+    items = value if isinstance(value, list) else [value]
+    if not items or not all(isinstance(v, str) for v in items):
+        raise ChangeError(change, f"expected an id or a list of ids, got {value!r}")
+    return list(items)
+
+
+def _drop(layout: Layout, change: Change) -> Layout:
+    scanners = {s.id: s for s in layout.scanners}
+    elements = list(layout.elements)
+    for sid in _as_list(change):
+        if sid not in scanners:
+            if sid in layout.by_id:
+                raise ChangeError(change, f"'{sid}' is not a scanner",
+                                  f"take it out of service with 'fail: {sid}'")
+            raise _missing(change, layout, sid, "scanner")
+        del scanners[sid]
+        elements.append(DumpSpec(sid, "dump", note="dropped scanner", location=change.location))
+    return replace(layout, scanners=tuple(s for s in layout.scanners if s.id in scanners),
+                   elements=tuple(elements))
+
+
+def _fail(layout: Layout, change: Change) -> Layout:
+    chosen = set(_as_list(change))
+    for item_id in chosen:
+        if item_id not in layout.by_id:
+            raise _missing(change, layout, item_id, "source, element or scanner")
+    return replace(
+        layout,
+        sources=tuple(replace(s, in_service=False) if s.id in chosen else s
+                      for s in layout.sources),
+        elements=tuple(replace(e, in_service=False) if e.id in chosen else e
+                       for e in layout.elements),
+        scanners=tuple(replace(s, in_service=False) if s.id in chosen else s
+                       for s in layout.scanners))
+
+
+def _target(layout: Layout, change: Change, dotted: str) -> tuple[Any, str, str]:
+    item_id, _, key = str(dotted).rpartition(".")
+    if not item_id or not key:
+        raise ChangeError(change, f"{dotted!r} must read ID.KEY", "e.g. 'fel-1.power'")
+    item = layout.by_id.get(item_id)
+    if item is None:
+        raise _missing(change, layout, item_id, "source, element or scanner")
+    group = ("source" if isinstance(item, SourceSpec) else
+             "scanner" if isinstance(item, ScannerSpec) else "element")
+    if key not in SETTABLE[group]:
+        hint = did_you_mean(key, SETTABLE[group]) or \
+            f"the keys here are: {', '.join(SETTABLE[group])}"
+        raise ChangeError(change, f"'{key}' cannot be changed on {group} '{item_id}'", hint)
+    return item, group, key
+
+
+def _current(item: Any, field_name: str, change: Change, dotted: str) -> float:
+    if isinstance(item, ScannerSpec) and field_name in ("dose_j_m2", "wafers_per_hour"):
+        if item.demand is None:
+            raise ChangeError(change, f"'{dotted}': the scanner has no dose/wph model")
+        return float(getattr(item.demand, field_name))
+    if isinstance(item, AttenuatorSpec) and field_name == "transmission":
+        return item.transmission_max
+    value = getattr(item, field_name, None)
+    if value is None:
+        raise ChangeError(change, f"'{dotted}' has no value to change on this "
+                          f"{getattr(item, 'kind', 'item') or 'item'}",
+                          "use 'set' with a value, or 'derate' for a computed gain")
+    return float(value)
+
+
+def _store(item: Any, field_name: str, value: float) -> Any:
+    if isinstance(item, ScannerSpec) and field_name in ("dose_j_m2", "wafers_per_hour"):
+        assert item.demand is not None
+        demand = (replace(item.demand, dose_j_m2=value) if field_name == "dose_j_m2"
+                  else replace(item.demand, wafers_per_hour=value))
+        return replace(item, demand=demand, need_w=None)
+    if isinstance(item, AttenuatorSpec) and field_name == "transmission":
+        return replace(item, transmission_min=min(item.transmission_min, value),
+                       transmission_max=value)
+    if isinstance(item, SplitterSpec) and field_name == "efficiency":
+        return replace(item, outputs=tuple(replace(o, efficiency=value) for o in item.outputs))
+    if not hasattr(item, field_name):
+        raise AttributeError(field_name)
+    return replace(item, **{field_name: value})
+
+
+def _check_range(change: Change, dotted: str, value: float, dimension: str) -> None:
+    if value < 0 or (dimension == "fraction" and value > 1.0):
+        bound = "between 0 and 1" if dimension == "fraction" else "at least 0"
+        raise ChangeError(change, f"'{dotted}' would become {value:g}; it must be {bound}")
+
+
+def _set_or_scale(layout: Layout, change: Change, scale: bool) -> Layout:
+    from beamplan.units import UnitError, parse_quantity
+
+    if not isinstance(change.argument, dict) or not change.argument:
+        raise ChangeError(change, "expected a mapping such as {fel-1.power: 9 kW}")
+    for dotted, raw in change.argument.items():
+        item, group, key = _target(layout, change, dotted)
+        field_name, dimension = SETTABLE[group][key]
+        computed = (isinstance(item, MirrorSpec) and key == "reflectivity"
+                    and item.reflectivity is None) or (
+            key == "transmission" and getattr(item, "transmission", 1.0) is None)
+        try:
+            number = parse_quantity(raw, "fraction" if scale else dimension)
+        except UnitError as exc:
+            raise ChangeError(change, f"'{dotted}': {exc.message}", exc.hint) from exc
+        if scale and computed:
+            field_name, dimension, value = "derate", "fraction", item.derate * number
+        elif scale:
+            value = _current(item, field_name, change, dotted) * number
+        else:
+            value = number
+        _check_range(change, dotted, value, dimension)
+        try:
+            updated = _store(item, field_name, value)
+        except AttributeError:
+            raise ChangeError(change, f"'{key}' does not apply to {group} '{item.id}' "
+                              f"({getattr(item, 'kind', group)})") from None
+        layout = _replace_item(layout, updated)
+    return layout
+
+
+def _replace_item(layout: Layout, item: Any) -> Layout:
+    def swap(group: tuple[Any, ...]) -> tuple[Any, ...]:
+        return tuple(item if x.id == item.id else x for x in group)
+
+    return replace(layout, sources=swap(layout.sources), elements=swap(layout.elements),
+                   scanners=swap(layout.scanners))
+
+
+def apply_change(layout: Layout, change: Change, *, add: Any = None) -> Layout:
+    """Apply one change; ``add`` builds the pieces of an ``add`` change.
+
+    Raises
+    ------
+    ChangeError
+        When the change does not fit the layout (unknown id, a value out of
+        range, an output already in use, ...).
+    """
+    if change.verb == "drop":
+        return _drop(layout, change)
+    if change.verb == "fail":
+        return _fail(layout, change)
+    if change.verb in ("set", "scale"):
+        return _set_or_scale(layout, change, change.verb == "scale")
+    if change.verb == "add":
+        added: Layout = add(layout, change)
+        return added
+    raise ChangeError(change, f"unknown change '{change.verb}'",
+                      did_you_mean(change.verb, ["drop", "add", "set", "scale", "fail",
+                                                 "include"]))
+
+
+def relink(layout: Layout, remove: LinkSpec | None, new: list[LinkSpec],
+           elements: list[ElementSpec], drop_ids: set[str]) -> Layout:
+    """The layout with one link removed, links and elements added, elements dropped."""
+    links = [lk for lk in layout.links if lk is not remove] + new
+    kept = [e for e in layout.elements if e.id not in drop_ids] + elements
+    return replace(layout, links=tuple(links), elements=tuple(kept))

@@ -1,0 +1,197 @@
+"""The ``cases`` (what-if comparison) and ``sweep`` (outage sweep) commands."""
+
+from __future__ import annotations
+
+import argparse
+import os
+import re
+import sys
+from typing import Any
+
+from beamplan import __version__
+from beamplan.errors import ExitCode, UsageError
+
+__all__ = ["register"]
+
+_PAIR = re.compile(r"(\w+)=(.+?)(?=\s+\w+=|$)")
+
+
+def _quote(value: str) -> str:
+    return "'" + value.replace("'", "''") + "'"
+
+
+def _command_line_case(args: argparse.Namespace) -> str | None:
+    """The changes given as options, as the YAML text of a one-case file."""
+    changes: list[str] = []
+    for item in args.drop or []:
+        changes.append(f"  - drop: {_quote(item)}")
+    for item in args.fail or []:
+        changes.append(f"  - fail: {_quote(item)}")
+    for verb in ("set", "scale"):
+        for item in getattr(args, verb) or []:
+            key, sep, value = item.partition("=")
+            if not sep or not key.strip() or not value.strip():
+                raise UsageError(f"--{verb} {item!r}: write ID.KEY=VALUE, e.g. fel-1.power=9kW")
+            changes.append(f"  - {verb}: {{{_quote(key.strip())}: {_quote(value.strip())}}}")
+    for item in args.add or []:
+        sid, _, rest = item.strip().partition(" ")
+        pairs = _PAIR.findall(rest)
+        if not sid or not pairs:
+            raise UsageError(f"--add {item!r}: write 'ID at=SPLITTER.OUTPUT power=300W' or "
+                             "'ID behind=ELEMENT part=PART power=300W'")
+        body = ", ".join(f"{k}: {_quote(v.strip())}" for k, v in pairs)
+        changes.append(f"  - add: {{scanner: {_quote(sid)}, {body}}}")
+    if not changes:
+        return None
+    return "format: 1\ncases:\n command-line:\n  changes:\n" + "\n".join(
+        " " + c for c in changes) + "\n"
+
+
+def _cases(args: argparse.Namespace) -> int:
+    from beamplan.analyses.cases import parse_cases
+    from beamplan.analyses.compare import compare_cases
+    from beamplan.cli.commands import _existing_file
+    from beamplan.layout.loader import parse_layout
+    from beamplan.layout.yamlpos import load_yaml, parse_yaml
+
+    base_doc = load_yaml(_existing_file(args.layout))
+    base = parse_layout(base_doc)
+    cases = {}
+    if args.cases:
+        cases.update(parse_cases(load_yaml(_existing_file(args.cases))))
+    inline = _command_line_case(args)
+    if inline is not None:
+        cases.update(parse_cases(parse_yaml(inline, "<command line>")))
+    if not cases:
+        raise UsageError("no cases: give a case file or changes such as --drop ID, --fail ID, "
+                         "--scale ID.KEY=FACTOR")
+    for name in args.only or []:
+        if name not in cases:
+            raise UsageError(f"--only {name!r}: no such case; the cases are: "
+                             f"{', '.join(cases)}")
+    if args.steady is not None and args.goal != "headroom":
+        raise UsageError("--steady works with --goal headroom")
+    comparison = compare_cases(base, cases, goal=args.goal, base_doc=base_doc,
+                               steady=args.steady, solver=args.solver,
+                               names=args.only or None)
+    _outputs(args, "cases", comparison)
+    short = any(c.plan.status == "short" for c in comparison.cases)
+    return int(ExitCode.SHORT if short else ExitCode.OK)
+
+
+def _outputs(args: argparse.Namespace, what: str, result: Any) -> None:
+    from beamplan.cli.commands import _console
+    from beamplan.report import analyses as rep
+    from beamplan.report.files import write_atomic
+
+    inputs = [p for p in (args.layout, getattr(args, "cases", None)) if p]
+    document = rep.cases_document if what == "cases" else rep.sweep_document
+    if args.json:
+        text = rep.to_json(document(result, __version__))
+        if args.json == "-":
+            sys.stdout.write(text)
+        else:
+            write_atomic(args.json, text, inputs)
+    if args.csv:
+        tables = rep.cases_csv(result) if what == "cases" else rep.sweep_csv(result)
+        try:
+            os.makedirs(args.csv, exist_ok=True)
+        except OSError as exc:
+            from beamplan.errors import OutputError
+
+            raise OutputError(f"cannot create the folder {args.csv!r}: {exc.strerror}") from exc
+        for name, text in tables.items():
+            write_atomic(os.path.join(args.csv, name), text, inputs)
+    if args.json != "-" and not args.quiet:
+        view = (rep.cases_renderable(result) if what == "cases"
+                else rep.sweep_renderable(result, args.top))
+        _console().print(view)
+
+
+def _sweep(args: argparse.Namespace) -> int:
+    from beamplan.analyses.outages import outage_cases, run_sweep
+    from beamplan.cli.commands import _load_network
+    from beamplan.report.progress import progress_bar
+
+    network = _load_network(args.layout)
+    try:
+        cases = outage_cases(network, kinds=args.kind or (), ids=args.only or (),
+                             pairs=args.pairs, max_pairs=args.max_pairs)
+    except ValueError as exc:
+        raise UsageError(str(exc)) from None
+    jobs = args.jobs if args.jobs > 0 else (1 if len(cases) < 300 else (os.cpu_count() or 1))
+    executor = None
+    if jobs > 1:
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+
+        method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() \
+            else "spawn"
+        executor = ProcessPoolExecutor(jobs, mp_context=multiprocessing.get_context(method))
+    try:
+        with progress_bar("outage cases") as step:
+            report = run_sweep(network, cases, goal=args.goal, solver=args.solver,
+                               executor=executor, progress=step)
+    finally:
+        if executor is not None:
+            executor.shutdown(wait=False, cancel_futures=True)
+    _outputs(args, "sweep", report)
+    if report.interrupted:
+        sys.stderr.write(f"beamplan: interrupted after {report.finished} of "
+                         f"{report.total_cases} cases; the report covers those\n")
+        return 130
+    return int(ExitCode.OK)
+
+
+def _common(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("-g", "--goal", choices=("headroom", "min-source", "priority"),
+                        default="headroom", help="the planning goal (default headroom)")
+    parser.add_argument("--json", metavar="PATH", help="write the JSON report ('-' for stdout)")
+    parser.add_argument("--csv", metavar="DIR", help="write CSV tables into DIR")
+    parser.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto")
+    parser.add_argument("-q", "--quiet", action="store_true", help="no terminal report")
+    parser.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+
+
+def register(sub: Any) -> None:
+    """Add ``cases`` and ``sweep``."""
+    cases = sub.add_parser(
+        "cases", help="plan what-if cases side by side with the base layout",
+        description="Apply each case's changes to a copy of the layout, re-check it, plan it "
+        "with the same goal and compare with the base: headroom, source power, delivered "
+        "power, shortfalls, newly binding constraints. Exit 0 when every case meets every "
+        "need, 3 when some case leaves a scanner short, 1 for invalid input.")
+    cases.add_argument("layout", help="the base layout file")
+    cases.add_argument("cases", nargs="?", help="a case file (see docs/cases.md)")
+    cases.add_argument("--drop", action="append", metavar="SCANNER", help="drop a scanner")
+    cases.add_argument("--fail", action="append", metavar="ID",
+                       help="take a source, element or scanner out of service")
+    cases.add_argument("--set", action="append", metavar="ID.KEY=VALUE",
+                       help="set a property, e.g. m2.reflectivity=0.9")
+    cases.add_argument("--scale", action="append", metavar="ID.KEY=FACTOR",
+                       help="scale a property, e.g. fel-1.power=0.9")
+    cases.add_argument("--add", action="append", metavar="'ID at=T.OUT power=P'",
+                       help="add a scanner at a free splitter output (or behind=E part=P)")
+    cases.add_argument("--only", action="append", metavar="CASE", help="plan only this case")
+    cases.add_argument("--steady", nargs="?", type=float, const=0.0, metavar="TOL",
+                       help="settings stability: stay within TOL (default 0) of each case's "
+                       "best headroom while moving the base settings as little as possible")
+    _common(cases)
+    cases.set_defaults(handler=_cases)
+
+    sweep = sub.add_parser(
+        "sweep", help="fail every element, source and scanner in turn and rank the impact",
+        description="Re-plan the layout with each node out of service (or each pair with "
+        "--pairs), rank the outages by impact, and list the single points of failure. Exit 0 "
+        "when the sweep finished, 130 when interrupted (the finished cases are reported).")
+    sweep.add_argument("layout", help="the layout file")
+    sweep.add_argument("--kind", action="append", help="only nodes of this kind (repeatable)")
+    sweep.add_argument("--only", action="append", metavar="ID", help="only these ids")
+    sweep.add_argument("--pairs", action="store_true", help="fail two at a time (N-2)")
+    sweep.add_argument("--max-pairs", type=int, default=5000,
+                       help="refuse more pairs than this (default 5000)")
+    sweep.add_argument("--jobs", type=int, default=0,
+                       help="worker processes (default: 1 for small sweeps, else every core)")
+    sweep.add_argument("--top", type=int, default=20, help="rows in the terminal table")
+    _common(sweep)
+    sweep.set_defaults(handler=_sweep)
