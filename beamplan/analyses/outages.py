@@ -154,8 +154,9 @@ def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[st
 
 
 def _rank(result: OutageResult) -> tuple[int, int, float, float, str]:
-    return (-len(result.cut_off), -len(result.short), -result.headroom_lost,
-            -result.delivered_lost_w, result.label)
+    # Rounded, so that round-off does not reorder ties between runs or workers.
+    return (-len(result.cut_off), -len(result.short), -round(result.headroom_lost, 7),
+            -round(result.delivered_lost_w, 3), result.label)
 
 
 def _cross_check(results: Iterable[OutageResult], spof: dict[str, tuple[str, ...]]
