@@ -14,7 +14,7 @@ def campus_yaml(scanners: int = 200, per_bay: int = 10) -> str:
     bays = (scanners + per_bay - 1) // per_bay
     lines = [
         "layout: campus", "format: 1",
-        f"sources: {{fel: {{power: {max(20, scanners * 0.35):.0f} kW}}}}",
+        f"sources: {{fel: {{power: {max(20, scanners * 0.6):.0f} kW}}}}",
         "parts:",
         "  fold: {kind: mirror, reflectivity: 0.97, heat_limit: 900 W}",
         "  tap: {kind: splitter, outputs: {pick: {efficiency: 0.97, fraction: [0.0, 0.5]},"
@@ -37,7 +37,8 @@ def campus_yaml(scanners: int = 200, per_bay: int = 10) -> str:
             tap = f"tap-{b}-{k}"
             lines.append(f"  {tap}: {{part: tap}}")
             branch = [f"{tap}.pick"]
-            for name, part in (("f1", "fold"), ("f2", "fold"), ("d", "pipe"), ("f3", "fold")):
+            for name, part in (("f1", "fold"), ("f2", "fold"), ("d", "pipe"), ("f3", "fold"),
+                               ("f4", "fold"), ("d2", "pipe"), ("f5", "fold"), ("f6", "fold")):
                 eid = f"s{b}-{k}-{name}"
                 lines.append(f"  {eid}: {{part: {part}}}")
                 branch.append(eid)
