@@ -34,15 +34,26 @@ def _load_network(path: str) -> Any:
     return build_network(load_layout(_existing_file(path)))
 
 
-def _print_warnings(network: Any) -> None:
+WARNINGS_PER_KIND = 5
+
+
+def _print_warnings(network: Any, every: bool = False) -> None:
+    """Warnings to stderr; past a few of one kind, a count (``check --all`` shows all)."""
+    shown: dict[str, int] = {}
     for warning in network.warnings:
-        sys.stderr.write(warning.format() + "\n")
+        shown[warning.code] = shown.get(warning.code, 0) + 1
+        if every or shown[warning.code] <= WARNINGS_PER_KIND:
+            sys.stderr.write(warning.format() + "\n")
+    for code, count in shown.items():
+        if not every and count > WARNINGS_PER_KIND:
+            sys.stderr.write(f"... and {count - WARNINGS_PER_KIND} more warnings like these "
+                             f"({code}); 'beamplan check --all' lists every one\n")
 
 
 def _check(args: argparse.Namespace) -> int:
     network = _load_network(args.layout)
     if not args.quiet:
-        _print_warnings(network)
+        _print_warnings(network, args.all)
         elements = len(network.elements)
         sys.stdout.write(f"{args.layout}: valid layout '{network.name}': "
                          f"{len(network.sources)} source(s), {elements} element(s), "
@@ -88,6 +99,7 @@ def register(sub: Any) -> None:
                            "checks. Exit 0 when valid, 1 when not.")
     check.add_argument("layout", help="the layout file (YAML)")
     check.add_argument("-q", "--quiet", action="store_true", help="print nothing when valid")
+    check.add_argument("--all", action="store_true", help="list every warning")
     check.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     check.set_defaults(handler=_check)
 
