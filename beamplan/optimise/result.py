@@ -28,6 +28,7 @@ __all__ = [
 ]
 
 CONSERVATION_RTOL = 1e-9
+IDLE_W = 1e-9  # below this an element's input is solver noise: it is idle
 LIMIT_RTOL = 1e-6
 
 
@@ -230,15 +231,15 @@ def propagate(network: Network, source_w: dict[str, float],
             gain = node.gain_max
             if b is Behaviour.RANGE:
                 lp_out = lp_link_w[network.out_link[(node.id, None)].index]
-                gain = min(max(lp_out / lp_in, node.gain_min), node.gain_max) if lp_in > 0 \
-                    else node.gain_max
+                gain = min(max(lp_out / lp_in, node.gain_min), node.gain_max) \
+                    if lp_in > IDLE_W else node.gain_max
                 settings[node.id] = gain
             link[network.out_link[(node.id, None)].index] = gain * inflow
             absorbed[node.id] = inflow - gain * inflow
         elif b is Behaviour.SPLIT:
             shares = [max(lp_share_w[(node.id, p.name)], 0.0) for p in node.ports]
             total = sum(shares)
-            fractions = ([s / total for s in shares] if total > 0
+            fractions = ([s / total for s in shares] if total > IDLE_W
                          else _idle_fractions(node.ports))
             settings[node.id] = tuple((str(p.name), f)
                                       for p, f in zip(node.ports, fractions, strict=True))

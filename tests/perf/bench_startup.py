@@ -19,7 +19,7 @@ import time
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
-from campus import campus_yaml  # noqa: E402
+from campus import campus_yaml
 
 
 def _median(command: list[str], runs: int = 7) -> float:
