@@ -56,9 +56,6 @@ class Backend(Protocol):
     def set_rhs(self, row: int, value: float) -> None:
         """Set the right-hand side of a one-sided or equality row."""
 
-    def set_row_bounds(self, row: int, low: float, high: float) -> None:
-        """Set a row's lower and upper bound (±inf switches a side off)."""
-
     def set_coefficient(self, row: int, col: int, value: float) -> None:
         """Set one matrix coefficient."""
 
@@ -119,9 +116,6 @@ class HighsBackend:
     def set_bounds(self, col: int, low: float, high: float) -> None:
         self.highs.changeColBounds(int(self.col[col]), low, high)
 
-    def set_row_bounds(self, row: int, low: float, high: float) -> None:
-        self.highs.changeRowBounds(int(self.row[row]), low, high)
-
     def set_rhs(self, row: int, value: float) -> None:
         sense = self.senses[row]
         low = value if sense >= 0 else -INF
@@ -177,10 +171,6 @@ class CbcBackend:
 
     def set_rhs(self, row: int, value: float) -> None:
         self.model.rows[row].changeRHS(value)
-
-    def set_row_bounds(self, row: int, low: float, high: float) -> None:
-        # Only the ties use this: a ">= 0" row switched off means a rhs of -inf.
-        self.model.rows[row].changeRHS(-1e30 if low == -INF else low)
 
     def set_coefficient(self, row: int, col: int, value: float) -> None:
         row_obj = self.model.rows[row]

@@ -76,20 +76,17 @@ class _Driver:
     def need(self, sid: str) -> float:
         return self.m.network.node[sid].need_w
 
-    def demand_active(self, sid: str) -> None:
-        """The scanner rises with the common factor: τ ≥ t, x ≥ need·τ."""
-        self.b.set_bounds(self.m.level_col[sid], 0.0, INF)
-        self.b.set_row_bounds(self.m.tie_row[sid], 0.0, INF)
+    def demand_active(self, sid: str, floor: float = 0.0) -> None:
+        """Row reads x + u − need·t ≥ 0 (floor unused)."""
+        row = self.m.demand_row[sid]
+        self.b.set_coefficient(row, self.m.factor_col, -self.need(sid))
+        self.b.set_rhs(row, floor)
 
     def demand_fixed(self, sid: str, level: float) -> None:
-        """The scanner is held at a level: τ ≥ level, no tie to t."""
-        low = max(level, 0.0) * (1.0 - self.b.freeze_slack)
-        self.b.set_bounds(self.m.level_col[sid], low, INF)
-        self.b.set_row_bounds(self.m.tie_row[sid], -INF, INF)
-
-    def demand_off(self, sid: str) -> None:
-        """No demand: τ ≥ 0, no tie (out of service, or a tier still waiting)."""
-        self.demand_fixed(sid, 0.0)
+        """Row reads x + u ≥ level·need (t no longer in it)."""
+        row = self.m.demand_row[sid]
+        self.b.set_coefficient(row, self.m.factor_col, 0.0)
+        self.b.set_rhs(row, max(level, 0.0) * self.need(sid) * (1.0 - self.b.freeze_slack))
 
     def factor_bounds(self, low: float, high: float) -> None:
         self.b.set_bounds(self.m.factor_col, low, high)
@@ -111,7 +108,7 @@ class _Driver:
                 self.first = sol
             level = float(sol.columns[self.m.factor_col])
             duals = sol.row_duals
-            blocked = [s for s in todo if duals[self.m.tie_row[s]] > DUAL_TOL]
+            blocked = [s for s in todo if duals[self.m.demand_row[s]] > DUAL_TOL]
             if level >= high * (1.0 - 1e-12) or not blocked:
                 blocked = list(todo)  # at the cap, or no dual certificate: freeze all
             if not self.first_frozen:
@@ -142,7 +139,8 @@ def _reset(d: _Driver) -> None:
         if sid in active:
             d.demand_active(sid)
         else:  # out of service: no demand at all
-            d.demand_off(sid)
+            d.b.set_coefficient(d.m.demand_row[sid], d.m.factor_col, 0.0)
+            d.b.set_rhs(d.m.demand_row[sid], 0.0)
     d.factor_bounds(0.0, INF)
 
 
@@ -190,7 +188,9 @@ def _priority(d: _Driver) -> GoalOutcome:
     tiers = sorted({s.priority for s in scanners})
     levels: dict[str, float] = {}
     for s in scanners:  # lower tiers wait: no demand yet
-        d.demand_off(s.id)
+        row = d.m.demand_row[s.id]
+        d.b.set_coefficient(row, d.m.factor_col, 0.0)
+        d.b.set_rhs(row, 0.0)
     for tier in tiers:
         d.fill([s.id for s in scanners if s.priority == tier], levels, 0.0, 1.0)
     served = [s.id for s in scanners if levels[s.id] >= 1.0 - 1e-9]

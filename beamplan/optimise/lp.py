@@ -53,9 +53,7 @@ class LpModel:
     share_col: dict[tuple[str, str | None], int] = field(default_factory=dict)
     shortfall_col: dict[str, int] = field(default_factory=dict)
     factor_col: int = -1
-    level_col: dict[str, int] = field(default_factory=dict)
     demand_row: dict[str, int] = field(default_factory=dict)
-    tie_row: dict[str, int] = field(default_factory=dict)
     heat_row: dict[str, int] = field(default_factory=dict)
     available_row: dict[str, int] = field(default_factory=dict)
     max_row: dict[str, int] = field(default_factory=dict)
@@ -165,21 +163,15 @@ def _element_families(m: LpModel) -> None:
 
 
 def _scanner_families(m: LpModel) -> None:
-    """Demand rows x + u − need·τ ≥ 0 and ties τ − t ≥ 0 (goals move only bounds)."""
     m.factor_col = m.add_column("t", 0.0, None)
     factor = m.var(m.factor_col)
     for j, node in enumerate(m.network.scanners):
         tag = _tag(j)
         inflow = m.inflow(node.id)
         short = m.add_column(f"u{tag}", 0.0, 0.0)
-        level = m.add_column(f"v{tag}", 0.0, None)
         m.shortfall_col[node.id] = short
-        m.level_col[node.id] = level
-        m.demand_row[node.id] = m.add_row(
-            inflow + m.var(short) - node.need_w * m.var(level) >= 0,
-            Row(f"dem{tag}", "demand", node.id))
-        m.tie_row[node.id] = m.add_row(m.var(level) - factor >= 0,
-                                       Row(f"tie{tag}", "tie", node.id))
+        m.demand_row[node.id] = m.add_row(inflow + m.var(short) - node.need_w * factor >= 0,
+                                          Row(f"dem{tag}", "demand", node.id))
         if node.max_w is not None and node.in_service:
             m.max_row[node.id] = m.add_row(inflow <= node.max_w,
                                            Row(f"cap{tag}", "max-power", node.id))

@@ -82,9 +82,10 @@ def steady_plan(network: Network, base_settings: Mapping[str, Setting], *,
     run_goal(model, backend, "headroom")  # sets every demand row; we then fix the factor
     floor = max(best * (1.0 - tolerance) * (1.0 - backend.freeze_slack), 0.0)
     for node in network.scanners:
+        row = model.demand_row[node.id]
         if node.in_service:
-            backend.set_bounds(model.level_col[node.id], 0.0, INF)
-            backend.set_row_bounds(model.tie_row[node.id], 0.0, INF)
+            backend.set_coefficient(row, model.factor_col, -node.need_w)
+            backend.set_rhs(row, 0.0)
     backend.set_bounds(model.factor_col, floor, INF)
     costs = {col: 1.0 for col in deviations}
     costs.update({col: SOURCE_WEIGHT for col in model.source_col.values()})
