@@ -100,3 +100,20 @@ def test_sweep_runs_on_a_process_pool_and_agrees_with_in_process() -> None:
 def test_dominators_include_the_source() -> None:
     spof = single_points_of_failure(build_network(load_layout("layouts/pilot-line.yaml")))
     assert set(spof["halo-fel"]) == {"litho-p1", "litho-p2", "litho-p3"}
+
+
+@pytest.mark.parametrize("name", DEMOS)
+def test_screening_gives_the_exact_lowest_factor_and_shortfalls(name: str) -> None:
+    # Reference: the full progressive filling (goal headroom) on the same cases.
+    net = build_network(load_layout(f"layouts/{name}.yaml"))
+    cases = outage_cases(net)
+    fast = {r.label: r for r in run_sweep(net, cases).results}
+    exact = {r.label: r for r in run_sweep(net, cases, exact=True).results}
+    assert fast.keys() == exact.keys()
+    for label, r in exact.items():
+        f = fast[label]
+        assert f.headroom_factor == pytest.approx(r.headroom_factor, rel=1e-6, abs=1e-9), label
+        assert dict(f.short).keys() == dict(r.short).keys(), label
+        for sid, short in r.short:
+            assert dict(f.short)[sid] == pytest.approx(short, rel=1e-6, abs=1e-6), label
+        assert f.cut_off == r.cut_off, label

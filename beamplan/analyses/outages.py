@@ -142,7 +142,11 @@ def _live(network: Network, solver: str) -> LiveModel:
 
 def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[str, ...]]
               ) -> list[OutageResult]:
-    """Plan a chunk of outage cases on this process's live model (a worker's task)."""
+    """Plan a chunk of outage cases on this process's live model (a worker's task).
+
+    ``goal`` may also be ``"screen"``: the sweep's fast form of ``headroom``
+    (see :func:`beamplan.optimise.goals.run_goal`).
+    """
     live = _live(network, solver)
     base = live.summary(goal)
     out = []
@@ -174,11 +178,16 @@ def _cross_check(results: Iterable[OutageResult], spof: dict[str, tuple[str, ...
 
 def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str = "headroom",
               solver: str = "auto", executor: Executor | None = None, chunk_size: int = 0,
-              progress: Callable[[int, int], None] | None = None) -> SweepReport:
+              progress: Callable[[int, int], None] | None = None,
+              exact: bool = False) -> SweepReport:
     """Re-plan every outage case and rank them by impact.
 
     Parameters
     ----------
+    exact
+        For goal ``headroom``: re-plan each case by full progressive filling.
+        By default the sweep screens: the lowest factor and every shortfall are
+        exact, and the power above the needs is spread by one LP.
     executor
         Run chunks of cases on it (any ``concurrent.futures.Executor``);
         ``None`` runs them in this process.
@@ -195,6 +204,8 @@ def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str =
     ('halo-fel', ())
     """
     base = LiveModel(network, solver).plan(goal)
+    if goal == "headroom" and not exact:
+        goal = "screen"
     size = chunk_size or max(8, min(200, len(cases) // 16 or 1))
     chunks = [list(cases[i:i + size]) for i in range(0, len(cases), size)]
     results: list[OutageResult] = []
@@ -223,5 +234,5 @@ def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str =
         interrupted = True
     spof = single_points_of_failure(network)
     ranked = tuple(sorted(results, key=_rank))
-    return SweepReport(network.name, goal, base, ranked, len(cases), spof,
+    return SweepReport(network.name, base.goal, base, ranked, len(cases), spof,
                        _cross_check(ranked, spof), interrupted)

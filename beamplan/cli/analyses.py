@@ -131,7 +131,7 @@ def _sweep(args: argparse.Namespace) -> int:
     try:
         with progress_bar("outage cases") as step:
             report = run_sweep(network, cases, goal=args.goal, solver=args.solver,
-                               executor=executor, progress=step)
+                               executor=executor, progress=step, exact=args.exact)
     finally:
         if executor is not None:
             executor.shutdown(wait=False, cancel_futures=True)
@@ -193,5 +193,9 @@ def register(sub: Any) -> None:
     sweep.add_argument("--jobs", type=int, default=0,
                        help="worker processes (default: 1 for small sweeps, else every core)")
     sweep.add_argument("--top", type=int, default=20, help="rows in the terminal table")
+    sweep.add_argument("--exact", action="store_true",
+                       help="re-plan each case by full progressive filling (slower); by "
+                       "default shortfalls and the lowest headroom are exact and the power "
+                       "above the needs is spread by one LP")
     _common(sweep)
     sweep.set_defaults(handler=_sweep)

@@ -120,6 +120,16 @@ class _Driver:
             todo = [s for s in todo if s not in levels]
             low = level
 
+    def hold_unreachable(self, levels: dict[str, float]) -> list[str]:
+        """Hold scanners that no power can reach at 0 (no LP needed); return the others."""
+        serving = {s.id for s in self.scanners}
+        for sid in sorted(self.m.unreachable):
+            if sid in serving and sid not in levels:
+                levels[sid] = 0.0
+                self.demand_fixed(sid, 0.0)
+                self.first_frozen.append(sid)
+        return [s.id for s in self.scanners if s.id not in levels]
+
     def frugal_at_need(self) -> RawSolution:
         """Least total source power with t fixed by the caller; may be infeasible."""
         self.objective({col: 1.0 for col in self.m.source_col.values()})
@@ -146,7 +156,7 @@ def _reset(d: _Driver) -> None:
 
 def _headroom(d: _Driver) -> GoalOutcome:
     levels: dict[str, float] = {}
-    d.fill([s.id for s in d.scanners], levels)
+    d.fill(d.hold_unreachable(levels), levels)
     final = d.frugal()
     first = d.first or final
     return GoalOutcome(final, "factor", first.row_duals, float(first.columns[d.m.factor_col]),
@@ -204,6 +214,44 @@ def _priority(d: _Driver) -> GoalOutcome:
                        levels, d.stages, d.freeze_duals, tuple(d.first_frozen))
 
 
+def _screen(d: _Driver) -> GoalOutcome:
+    """The sweep's fast headroom: exact below the needs, one LP above them.
+
+    The best common factor t* is solved exactly. Scanners that cannot reach
+    their need are filled progressively, exactly as by ``headroom``; above the
+    need, one LP spreads the power by maximising the total delivered with
+    every scanner held at min(t*, its level). Shortfalls and the lowest factor
+    are those of ``headroom``; the split of power above the needs may differ.
+    """
+    levels: dict[str, float] = {}
+    active = d.hold_unreachable(levels)
+    best = 0.0
+    if active:
+        for sid in active:
+            d.demand_active(sid)
+        d.objective({d.m.factor_col: -1.0})
+        d.factor_bounds(0.0, INF)
+        d.first = d.solve()
+        best = float(d.first.columns[d.m.factor_col])
+    if not active:
+        pass
+    elif best < 1.0:
+        d.fill(active, levels, 0.0, 1.0)
+    else:
+        for sid in active:
+            levels[sid] = best
+            d.demand_fixed(sid, best)
+        d.first_frozen = active
+    d.factor_bounds(0.0, 0.0)
+    costs = {d.m.link_col[link.index]: -1.0 for sid in active
+             for link in d.m.network.in_links[sid]}
+    d.objective(costs)
+    final = d.solve()
+    first = d.first or final
+    return GoalOutcome(final, "factor", first.row_duals, best, levels, d.stages,
+                       d.freeze_duals, tuple(d.first_frozen))
+
+
 def run_goal(model: LpModel, backend: Backend, goal: str) -> GoalOutcome:
     """Solve ``goal`` on ``model`` with ``backend``; the model may be re-used.
 
@@ -218,7 +266,7 @@ def run_goal(model: LpModel, backend: Backend, goal: str) -> GoalOutcome:
     >>> outcome.primary, outcome.primary_value > 1.0
     ('factor', True)
     """
-    if goal not in GOALS:
+    if goal not in GOALS and goal != "screen":
         raise ValueError(f"unknown goal {goal!r}; the goals are {', '.join(GOALS)}")
     driver = _Driver(model, backend)
     _reset(driver)
@@ -226,4 +274,6 @@ def run_goal(model: LpModel, backend: Backend, goal: str) -> GoalOutcome:
         return _headroom(driver)
     if goal == "min-source":
         return _min_source(driver)
+    if goal == "screen":
+        return _screen(driver)
     return _priority(driver)

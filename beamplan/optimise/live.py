@@ -52,6 +52,9 @@ class LiveModel:
         self.network = network
         self.model: LpModel = build_lp(network)
         self.backend: Backend = make_backend(self.model, solver)
+        self._succ: dict[str, list[str]] = {}
+        for link in network.links:
+            self._succ.setdefault(link.tail, []).append(link.head)
         self._rows: dict[str, list[int]] = {}
         for index, info in enumerate(self.model.row_info):
             self._rows.setdefault(info.node, []).append(index)
@@ -115,6 +118,19 @@ class LiveModel:
                 col = m.share_col[(node.id, port_name)]
                 b.set_coefficient(row, col, -port.efficiency if on else 0.0)
 
+    def _cut_off(self, failed: set[str]) -> set[str]:
+        """Scanners that no source in service reaches once ``failed`` are out (a search)."""
+        net = self.network
+        seen = {n.id for n in net.sources if n.in_service and n.available_w > 0
+                and n.id not in failed}
+        stack = list(seen)
+        while stack:
+            for head in self._succ.get(stack.pop(), ()):
+                if head not in seen and head not in failed and net.node[head].in_service:
+                    seen.add(head)
+                    stack.append(head)
+        return {s.id for s in net.scanners if s.id not in seen}
+
     @contextlib.contextmanager
     def outage(self, node_ids: Iterable[str]) -> Iterator[Network]:
         """Take nodes out of service for the duration of the ``with`` block."""
@@ -126,10 +142,12 @@ class LiveModel:
             if node.in_service:
                 self._set_service(node, False)
         self.model.network = case_network
+        self.model.unreachable = self._cut_off(set(ids))
         try:
             yield case_network
         finally:
             self.model.network = self.network
+            self.model.unreachable = set()
             for node in originals:
                 if node.in_service:
                     self._set_service(node, True)

@@ -58,6 +58,7 @@ class LpModel:
     available_row: dict[str, int] = field(default_factory=dict)
     max_row: dict[str, int] = field(default_factory=dict)
     out_of_service: set[str] = field(default_factory=set)  # outages applied in place
+    unreachable: set[str] = field(default_factory=set)  # scanners no power can reach
 
     def add_column(self, name: str, low: float | None = 0.0, high: float | None = None) -> int:
         """Add a variable; return its column number."""

@@ -134,14 +134,14 @@ def main() -> None:
     recorder = Recorder(live.backend)
     live.backend = recorder  # type: ignore[assignment]
     lp = live.backend.inner.highs.getLp()  # the prepared arrays, before any case
-    live.summary("headroom")
+    live.summary("screen")
     recorder.ops.clear()
     per_case_ops = []
     start = time.perf_counter()
     for failed in sample:
         before = len(recorder.ops)
         with live.outage(failed):
-            live.summary("headroom")
+            live.summary("screen")
         per_case_ops.append(recorder.ops[before:])
     ours = time.perf_counter() - start
     # warm the reference the same way (one base solve), then replay

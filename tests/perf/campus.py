@@ -14,9 +14,9 @@ def campus_yaml(scanners: int = 200, per_bay: int = 10) -> str:
     bays = (scanners + per_bay - 1) // per_bay
     lines = [
         "layout: campus", "format: 1",
-        f"sources: {{fel: {{power: {max(20, scanners * 0.6):.0f} kW}}}}",
+        f"sources: {{fel: {{power: {max(20, scanners * 0.8):.0f} kW}}}}",
         "parts:",
-        "  fold: {kind: mirror, reflectivity: 0.97, heat_limit: 150 W}",
+        "  fold: {kind: mirror, reflectivity: 0.97, heat_limit: 220 W}",
         "  tap: {kind: splitter, outputs: {pick: {efficiency: 0.97, fraction: [0.0, 0.5]},"
         " pass: {efficiency: 0.99}}}",
         "  pipe: {kind: drift, transmission: 0.995}",
