@@ -85,6 +85,12 @@ def _plan(args: argparse.Namespace) -> int:
         from beamplan.report.document import write_csv
 
         write_csv(plan, args.csv, inputs)
+    if args.html:
+        from beamplan.report.files import write_atomic
+        from beamplan.report.html import plan_html
+
+        write_atomic(args.html, plan_html(plan, network, layout_path=args.layout,
+                                          version=__version__), inputs)
     if not to_stdout and not args.quiet:
         from beamplan.report.terminal import plan_renderable
 
@@ -115,6 +121,8 @@ def register(sub: Any) -> None:
                       "tier 1 first, then tier 2, ...")
     plan.add_argument("--json", metavar="PATH", help="write the JSON report ('-' for stdout)")
     plan.add_argument("--csv", metavar="DIR", help="write one CSV file per table into DIR")
+    plan.add_argument("--html", metavar="FILE", help="write a self-contained HTML report "
+                      "(tables, diagram, plots, provenance) to FILE")
     plan.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
                       help="LP solver (default: HiGHS in process, CBC if highspy is missing)")
     plan.add_argument("--brief", action="store_true", help="leave out the element table")
@@ -123,7 +131,8 @@ def register(sub: Any) -> None:
     plan.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     plan.set_defaults(handler=_plan)
 
-    from beamplan.cli import analyses, calc
+    from beamplan.cli import analyses, calc, draw
 
     analyses.register(sub)
+    draw.register(sub)
     calc.register(sub)

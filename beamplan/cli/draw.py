@@ -1,0 +1,97 @@
+"""The ``draw`` subcommand: the power-flow diagram of a layout, optionally with its plan."""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+from typing import Any
+
+from beamplan.errors import ExitCode, UsageError
+
+__all__ = ["SUFFIXES", "register"]
+
+SUFFIXES = {".svg": "svg", ".png": "png", ".pdf": "pdf", ".dot": "dot", ".gv": "dot"}
+
+
+def _format(output: str, chosen: str | None) -> str:
+    if chosen:
+        return chosen
+    if output == "-":
+        return "svg"
+    suffix = os.path.splitext(output)[1].lower()
+    if suffix not in SUFFIXES:
+        raise UsageError(f"cannot tell the picture format of {output!r} from its suffix; "
+                         "name it .svg, .png, .pdf or .dot, or give --format")
+    return SUFFIXES[suffix]
+
+
+def _draw(args: argparse.Namespace) -> int:
+    from beamplan.cli.commands import _load_network, _print_warnings
+    from beamplan.report.diagram import diagram_dot, diagram_picture, write_atomic_bytes
+
+    fmt = _format(args.output, args.format)
+    if args.output == "-" and fmt in ("png", "pdf"):
+        raise UsageError(f"{fmt.upper()} is binary: give a file name with -o, not '-'")
+    network = _load_network(args.layout)
+    if not args.quiet:
+        _print_warnings(network)
+    plan = None
+    if args.plan or args.goal:
+        from beamplan.optimise.planner import plan_network
+
+        plan = plan_network(network, args.goal or "headroom", args.solver)
+    if fmt == "dot":
+        data = diagram_dot(network, plan, group_chains=args.group_chains).encode("utf-8")
+    else:
+        data = diagram_picture(network, plan, group_chains=args.group_chains).data(fmt)
+    if args.output == "-":
+        sys.stdout.write(data.decode("utf-8"))
+        sys.stdout.flush()
+    else:
+        write_atomic_bytes(args.output, data, [args.layout])
+        if not args.quiet:
+            what = f"with the {plan.goal} plan ({plan.status})" if plan else "without a plan"
+            sys.stdout.write(f"{args.layout}: drew '{network.name}' {what} to {args.output} "
+                             f"({fmt.upper()})\n")
+    return int(ExitCode.SHORT if plan is not None and not plan.all_met else ExitCode.OK)
+
+
+def register(sub: Any) -> None:
+    """Add the ``draw`` subcommand to an argparse subparsers object.
+
+    Examples
+    --------
+    >>> import argparse
+    >>> parser = argparse.ArgumentParser(prog="beamplan")
+    >>> register(parser.add_subparsers())
+    >>> args = parser.parse_args(["draw", "layouts/pilot-line.yaml", "-o", "x.svg", "--plan"])
+    >>> args.plan, args.format, args.group_chains
+    (True, None, False)
+    """
+    from beamplan.cli.commands import GOALS  # here, so commands.py may import this module
+
+    draw = sub.add_parser("draw", help="draw the power-flow diagram (SVG, PNG, PDF or DOT)",
+                          description="Draw the power-flow diagram of a layout: sources on "
+                          "the left, scanners on the right, every element in between. With "
+                          "--plan, plan it first and draw the powers: line widths, heat use, "
+                          "headroom and binding constraints, explained in the legend. Exit 0, "
+                          "or 3 when a planned scanner falls short.")
+    draw.add_argument("layout", help="the layout file (YAML)")
+    draw.add_argument("-o", "--output", required=True, metavar="FILE",
+                      help="the picture to write; its suffix (.svg, .png, .pdf, .dot) sets the "
+                      "format; '-' writes SVG or DOT text to stdout")
+    draw.add_argument("--plan", action="store_true",
+                      help="plan the layout and draw its powers (default: the layout only)")
+    draw.add_argument("-g", "--goal", choices=GOALS, default=None,
+                      help="the planning goal (implies --plan; default headroom)")
+    draw.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
+                      help="LP solver for --plan (default: HiGHS, CBC if highspy is missing)")
+    draw.add_argument("--group-chains", action="store_true",
+                      help="draw each run of plain mirrors, drifts and fixed attenuators as "
+                      "one box with the ids and their combined gain")
+    draw.add_argument("--format", choices=("svg", "png", "pdf", "dot"), default=None,
+                      help="the picture format, when the suffix of FILE does not say it")
+    draw.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
+    draw.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    draw.set_defaults(handler=_draw)
