@@ -46,6 +46,7 @@ class Backend(Protocol):
     name: str
     version: str
     freeze_slack: float
+    freeze_abs_w: float
 
     def set_objective(self, costs: Mapping[int, float]) -> None:
         """Replace the objective: minimise Σ cost × column."""
@@ -85,6 +86,7 @@ class HighsBackend:
 
     name = "HiGHS"
     freeze_slack = 1e-9
+    freeze_abs_w = 1e-8
 
     def __init__(self, model: LpModel) -> None:
         import highspy
@@ -150,7 +152,8 @@ class CbcBackend:
     """Apply edits to the pulp model and solve it with pulp's CBC (fallback)."""
 
     name = "CBC"
-    freeze_slack = 1e-6  # CBC's solution file carries fewer digits
+    freeze_slack = 1e-7  # CBC's solution file carries fewer digits
+    freeze_abs_w = 1e-6
 
     def __init__(self, model: LpModel) -> None:
         import pulp

@@ -86,7 +86,9 @@ class _Driver:
         """Row reads x + u ≥ level·need (t no longer in it)."""
         row = self.m.demand_row[sid]
         self.b.set_coefficient(row, self.m.factor_col, 0.0)
-        self.b.set_rhs(row, max(level, 0.0) * self.need(sid) * (1.0 - self.b.freeze_slack))
+        held = max(level, 0.0) * self.need(sid)
+        # A relative give, and an absolute one for scanners that get milliwatts.
+        self.b.set_rhs(row, max(held * (1.0 - self.b.freeze_slack) - self.b.freeze_abs_w, 0.0))
 
     def factor_bounds(self, low: float, high: float) -> None:
         self.b.set_bounds(self.m.factor_col, low, high)
@@ -206,8 +208,8 @@ def _priority(d: _Driver) -> GoalOutcome:
     served = [s.id for s in scanners if levels[s.id] >= 1.0 - 1e-9]
     for sid in served:
         del levels[sid]
-    if served:
-        d.fill(served, levels, 1.0, INF)
+    if served:  # lift the served together; no floor of 1: their holds carry a slack
+        d.fill(served, levels, 0.0, INF)
     final = d.frugal()
     first = d.first or final
     return GoalOutcome(final, "factor", first.row_duals, float(first.columns[d.m.factor_col]),
