@@ -141,3 +141,22 @@ def test_every_goal_runs_on_the_cli(capsys: pytest.CaptureFixture[str], goal: st
     code, out, _ = run(capsys, "plan", PILOT, "--goal", goal, "--brief")
     assert code == 0
     assert f"goal       {goal}" in out
+
+
+BROKEN_DIR = pathlib.Path(__file__).parent / "broken"
+
+
+@pytest.mark.parametrize("path", sorted(BROKEN_DIR.glob("*.yaml")), ids=lambda p: p.stem)
+def test_every_broken_layout_exits_1_with_located_one_line_errors(
+        capsys: pytest.CaptureFixture[str], path: pathlib.Path) -> None:
+    # The corpus's own first line names the expected code and position (hand count).
+    expect = path.read_text().splitlines()[0].split()
+    code_name, where = expect[2], expect[3]
+    assert main(["check", str(path)]) == 1
+    err = capsys.readouterr().err
+    errors = [line for line in err.splitlines() if ": error: " in line]
+    assert errors and "Traceback" not in err
+    assert all(line.startswith(f"{path}:") for line in errors)
+    assert any(line.startswith(f"{path}:{where}: error: ") for line in errors), (code_name, err)
+    assert main(["plan", str(path), "--quiet"]) == 1
+    capsys.readouterr()

@@ -137,6 +137,13 @@ class Plan:
         return photon_energy_ev(self.wavelength_m)
 
     @property
+    def photon_flux_per_watt(self) -> float:
+        """Photons per second in one watt at the layout wavelength (CODATA constants)."""
+        from beamplan.physics.photons import photon_flux_per_watt
+
+        return photon_flux_per_watt(self.wavelength_m)
+
+    @property
     def electrical_per_delivered(self) -> float | None:
         """Wall-plug power per unit of EUV power delivered at the scanners."""
         electrical = [s.electrical_w for s in self.sources

@@ -61,6 +61,7 @@ def plan_document(plan: Plan, version: str) -> dict[str, Any]:
         "efficiency": rounded(plan.efficiency),
         "wavelength_m": rounded(plan.wavelength_m),
         "photon_energy_ev": rounded(plan.photon_energy_ev),
+        "photon_flux_per_w": rounded(plan.photon_flux_per_watt),
         "electrical_per_delivered": rounded(plan.electrical_per_delivered),
         "sources": [{"id": s.id, "available_w": rounded(s.available_w),
                      "output_w": rounded(s.output_w), "electrical_w": rounded(s.electrical_w)}

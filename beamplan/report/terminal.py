@@ -61,7 +61,7 @@ def _header(plan: Plan) -> Table:
     grid.add_row("headroom", f"factor {plan.headroom_factor:.4f} (lowest scanner "
                              f"{_pct(plan.headroom_factor - 1)})")
     grid.add_row("light", f"{plan.wavelength_m * 1e9:.2f} nm, {plan.photon_energy_ev:.2f} eV "
-                          "per photon")
+                          f"per photon, {plan.photon_flux_per_watt:.3g} photons/s per W")
     per_kw = plan.electrical_per_delivered
     if per_kw is not None:
         grid.add_row("wall plug", f"{per_kw:.0f} kW electrical per kW delivered at IF")
