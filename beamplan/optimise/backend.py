@@ -105,6 +105,7 @@ class HighsBackend:
         self.col = np.array([v.index for v in model.columns], dtype=np.int64)
         self.row = np.array([r.index for r in model.rows], dtype=np.int64)
         self.senses = [r.sense for r in model.rows]
+        self._warm = False
         self.ncols = len(model.columns)
         self.version = (f"{self.highs.versionMajor()}.{self.highs.versionMinor()}."
                         f"{self.highs.versionPatch()}")
@@ -130,6 +131,11 @@ class HighsBackend:
     def solve(self) -> RawSolution:
         status_enum = self._highspy.HighsModelStatus
         self.highs.run()
+        if not self._warm:
+            # Presolve pays on the first (cold) solve; re-solves of an edited model
+            # start from the last basis, and presolving them again costs a third more.
+            self.highs.setOptionValue("presolve", "off")
+            self._warm = True
         status = self.highs.getModelStatus()
         if status == status_enum.kOptimal:
             text = "optimal"
