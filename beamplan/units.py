@@ -292,7 +292,7 @@ def format_power(power_w: float) -> str:
     '0 W'
     """
     magnitude = abs(power_w)
-    if magnitude == 0.0:
+    if magnitude < 5e-5:  # below what the report shows: solver noise reads as nothing
         return "0 W"
     if magnitude >= 999.995e3:
         return f"{power_w / 1e6:.2f} MW"

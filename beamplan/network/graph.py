@@ -96,6 +96,28 @@ class Network:
         """The elements (neither sources nor scanners), in topological order."""
         return tuple(n for n in self.nodes if not (n.is_source or n.is_scanner))
 
+    @functools.cached_property
+    def standby_sources(self) -> frozenset[str]:
+        """Sources from which no power can reach any scanner (a switch selects another)."""
+        carry: dict[str, list[str]] = {}
+        for link in self.links:
+            head = self.node[link.head]
+            blocked = head.behaviour is Behaviour.COMBINE and head.select not in (None,
+                                                                                 link.tail)
+            if not blocked and self.port_gain_max(link) > 0.0:
+                carry.setdefault(link.tail, []).append(link.head)
+        standby = set()
+        for source in self.sources:
+            seen, stack = {source.id}, [source.id]
+            while stack:
+                for head in carry.get(stack.pop(), ()):
+                    if head not in seen:
+                        seen.add(head)
+                        stack.append(head)
+            if not any(self.node[n].is_scanner for n in seen):
+                standby.add(source.id)
+        return frozenset(standby)
+
     def with_nodes(self, changed: dict[str, Node]) -> Network:
         """The same network with some nodes replaced (same ids, same links).
 

@@ -109,8 +109,9 @@ def finish_plan(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: st
     lp_link = [float(cols[model.link_col[link.index]]) for link in network.links]
     lp_share = {key: float(cols[col]) for key, col in model.share_col.items()}
     flows = propagate(network, source_w, lp_link, lp_share)
-    sources = tuple(SourceResult(n.id, n.available_w, flows.incident_w[n.id], n.electrical_w)
-                    for n in network.sources)
+    standby = network.standby_sources
+    sources = tuple(SourceResult(n.id, n.available_w, flows.incident_w[n.id], n.electrical_w,
+                                 n.id in standby) for n in network.sources)
     scanners = _scanners(model, outcome, flows)
     serving = [s for s in scanners if s.status != "out of service"]
     factor = min((s.delivered_w / s.need_w for s in serving), default=0.0)

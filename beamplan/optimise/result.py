@@ -40,6 +40,7 @@ class SourceResult:
     available_w: float
     output_w: float
     electrical_w: float | None = None
+    standby: bool = False  # no power can reach a scanner from it (a switch selects another)
 
 
 @dataclass(frozen=True)
@@ -161,8 +162,13 @@ class Plan:
 
     @property
     def source_available_w(self) -> float:
-        """Total power the sources could give."""
-        return sum(s.available_w for s in self.sources)
+        """Total power the sources that can feed scanners could give (standby excluded)."""
+        return sum(s.available_w for s in self.sources if not s.standby)
+
+    @property
+    def standby_w(self) -> float:
+        """Power of the sources on standby (deselected by a switch)."""
+        return sum(s.available_w for s in self.sources if s.standby)
 
     @property
     def delivered_w(self) -> float:

@@ -64,7 +64,8 @@ def plan_document(plan: Plan, version: str) -> dict[str, Any]:
         "photon_flux_per_w": rounded(plan.photon_flux_per_watt),
         "electrical_per_delivered": rounded(plan.electrical_per_delivered),
         "sources": [{"id": s.id, "available_w": rounded(s.available_w),
-                     "output_w": rounded(s.output_w), "electrical_w": rounded(s.electrical_w)}
+                     "output_w": rounded(s.output_w), "electrical_w": rounded(s.electrical_w),
+                     "standby": s.standby}
                     for s in plan.sources],
         "scanners": [{"id": s.id, "need_w": rounded(s.need_w),
                       "delivered_w": rounded(s.delivered_w),

@@ -54,8 +54,9 @@ def _header(plan: Plan) -> Table:
     grid.add_row("layout", f"{plan.layout}  ({plan.file})")
     grid.add_row("goal", plan.goal)
     grid.add_row("status", status)
+    spare = f" (+{format_power(plan.standby_w)} on standby)" if plan.standby_w else ""
     grid.add_row("source", f"{format_power(plan.source_used_w)} used of "
-                           f"{format_power(plan.source_available_w)} available")
+                           f"{format_power(plan.source_available_w)} available{spare}")
     grid.add_row("delivered", f"{format_power(plan.delivered_w)} at IF, "
                               f"overall efficiency {plan.efficiency:.1%}")
     grid.add_row("headroom", f"factor {plan.headroom_factor:.4f} (lowest scanner "
