@@ -110,10 +110,10 @@ class Network:
         for source in self.sources:
             seen, stack = {source.id}, [source.id]
             while stack:
-                for head in carry.get(stack.pop(), ()):
-                    if head not in seen:
-                        seen.add(head)
-                        stack.append(head)
+                for nxt in carry.get(stack.pop(), ()):
+                    if nxt not in seen:
+                        seen.add(nxt)
+                        stack.append(nxt)
             if not any(self.node[n].is_scanner for n in seen):
                 standby.add(source.id)
         return frozenset(standby)
