@@ -129,13 +129,20 @@ def _impact(base: CaseSummary, case: CaseSummary, failed: tuple[str, ...],
                         tuple(losing), tuple(short), tuple(cut), "short" if short else "met")
 
 
-_WORKERS: dict[tuple[int, str, str], LiveModel] = {}
+_WORKERS: dict[tuple[str, int, int, str], LiveModel] = {}
+_BASES: dict[tuple[str, int, int, str, str], CaseSummary] = {}
+
+
+def _key(network: Network, solver: str) -> tuple[str, int, int, str]:
+    # By content, not identity: a worker process gets a fresh copy with every chunk.
+    return (network.sha256, len(network.nodes), len(network.links), solver)
 
 
 def _live(network: Network, solver: str) -> LiveModel:
-    key = (id(network), network.sha256, solver)
+    key = _key(network, solver)
     if key not in _WORKERS:
         _WORKERS.clear()
+        _BASES.clear()
         _WORKERS[key] = LiveModel(network, solver)
     return _WORKERS[key]
 
@@ -148,7 +155,11 @@ def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[st
     (see :func:`beamplan.optimise.goals.run_goal`).
     """
     live = _live(network, solver)
-    base = live.summary(goal)
+    base_key = (*_key(network, solver), goal)
+    if base_key not in _BASES:
+        _BASES[base_key] = live.summary(goal)
+    base = _BASES[base_key]
+    network = live.network
     out = []
     for failed in cases:
         with live.outage(failed):

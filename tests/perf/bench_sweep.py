@@ -41,7 +41,8 @@ class Recorder:
     def __init__(self, inner: Any) -> None:
         self.inner = inner
         self.ops: list[tuple[Any, ...]] = []
-        self.name, self.version, self.freeze_slack = inner.name, inner.version, inner.freeze_slack
+        self.name, self.version = inner.name, inner.version
+        self.freeze_slack, self.freeze_abs_w = inner.freeze_slack, inner.freeze_abs_w
 
     def set_objective(self, costs: Any) -> None:
         self.inner.set_objective(costs)
@@ -98,6 +99,7 @@ def replay(lp: Any, backend: Any, cases_ops: list[list[tuple[Any, ...]]]) -> flo
                 h.changeColsCost(ncols, col, values)
             else:
                 h.run()
+                h.setOptionValue("presolve", "off")  # as beamplan: presolve the cold solve only
                 solution = h.getSolution()
                 np.asarray(solution.col_value)
                 np.asarray(solution.row_dual)
