@@ -39,10 +39,6 @@ def _section(ctx: Context, top: MapReader, key: str, required: bool) -> dict[str
     return value
 
 
-def _reader(ctx: Context, settings: dict[str, Any], path: Path, subject: str) -> MapReader:
-    return MapReader(ctx, settings, {k: (*path, k) for k in settings}, subject, path)
-
-
 def _read_elements(ctx: Context, section: dict[str, Any], parts: dict[str, Any]
                    ) -> tuple[list[ElementSpec], set[str]]:
     used_parts: set[str] = set()
