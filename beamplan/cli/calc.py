@@ -110,8 +110,9 @@ def _run(args: argparse.Namespace, build: Callable[[], dict[str, Any]]) -> int:
         sys.stdout.flush()
     else:
         from beamplan.cli.commands import _console
+        from beamplan.report.calc_view import calc_renderable
 
-        _console().print(report.calc_renderable(document))
+        _console().print(calc_renderable(document))
     result = document.get("result", {})
     return int(ExitCode.INVALID if result.get("reachable") is False else ExitCode.OK)
 
