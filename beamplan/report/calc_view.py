@@ -187,6 +187,7 @@ def calc_renderable(document: Mapping[str, Any]) -> Group:
     --------
     >>> import io
     >>> from rich.console import Console
+    >>> from beamplan.report.calc import gas_document
     >>> console = Console(file=io.StringIO(), width=80, color_system=None)
     >>> console.print(calc_renderable(gas_document("H2", [10.0], 300.0, [2.0, 4.0], 13.5e-9)))
     >>> "transmission" in console.file.getvalue()
