@@ -31,11 +31,11 @@ from beamplan.report.diagram import (
     WIDTH_MAX_PT,
     WIDTH_MIN_PT,
     _spread,
-    diagram_dot,
     diagram_model,
     diagram_picture,
     link_powers,
 )
+from beamplan.report.dot import diagram_dot
 from beamplan.report.plots import (
     CASE_STYLES,
     MAX_PIXELS,

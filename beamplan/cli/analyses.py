@@ -6,10 +6,13 @@ import argparse
 import os
 import re
 import sys
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from beamplan import __version__
 from beamplan.errors import ExitCode, UsageError
+
+if TYPE_CHECKING:
+    from beamplan.network.graph import Network
 
 __all__ = ["register"]
 
@@ -79,7 +82,12 @@ def _cases(args: argparse.Namespace) -> int:
     return int(ExitCode.SHORT if short else ExitCode.OK)
 
 
-def _outputs(args: argparse.Namespace, what: str, result: Any) -> None:
+def _outputs(args: argparse.Namespace, what: str, result: Any,
+             network: Network | None = None) -> None:
+    """Write the JSON, CSV and HTML reports asked for, then print the terminal report.
+
+    ``network`` is the network swept (for ``sweep``; ``cases`` has its own in the plans).
+    """
     from beamplan.cli.commands import _console
     from beamplan.report import analyses as rep
     from beamplan.report.files import write_atomic
@@ -102,6 +110,17 @@ def _outputs(args: argparse.Namespace, what: str, result: Any) -> None:
             raise OutputError(f"cannot create the folder {args.csv!r}: {exc.strerror}") from exc
         for name, text in tables.items():
             write_atomic(os.path.join(args.csv, name), text, inputs)
+    if args.html:
+        from beamplan.report.html_analyses import cases_html, sweep_html
+
+        if what == "cases":
+            page = cases_html(result, layout_path=args.layout, cases_path=args.cases,
+                              version=__version__)
+        else:
+            assert network is not None, "a sweep report needs the network swept"
+            page = sweep_html(result, network, layout_path=args.layout, version=__version__,
+                              top=args.top)
+        write_atomic(args.html, page, inputs)
     if args.json != "-" and not args.quiet:
         view = (rep.cases_renderable(result) if what == "cases"
                 else rep.sweep_renderable(result, args.top))
@@ -135,7 +154,7 @@ def _sweep(args: argparse.Namespace) -> int:
     finally:
         if executor is not None:
             executor.shutdown(wait=False, cancel_futures=True)
-    _outputs(args, "sweep", report)
+    _outputs(args, "sweep", report, network)
     if report.interrupted:
         sys.stderr.write(f"beamplan: interrupted after {report.finished} of "
                          f"{report.total_cases} cases; the report covers those\n")
@@ -148,6 +167,8 @@ def _common(parser: argparse.ArgumentParser) -> None:
                         default="headroom", help="the planning goal (default headroom)")
     parser.add_argument("--json", metavar="PATH", help="write the JSON report ('-' for stdout)")
     parser.add_argument("--csv", metavar="DIR", help="write CSV tables into DIR")
+    parser.add_argument("--html", metavar="FILE", help="write a self-contained HTML report "
+                        "(tables, chart, provenance) to FILE")
     parser.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto")
     parser.add_argument("-q", "--quiet", action="store_true", help="no terminal report")
     parser.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)

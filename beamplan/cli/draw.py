@@ -28,7 +28,8 @@ def _format(output: str, chosen: str | None) -> str:
 
 def _draw(args: argparse.Namespace) -> int:
     from beamplan.cli.commands import _load_network, _print_warnings
-    from beamplan.report.diagram import diagram_dot, diagram_picture, write_atomic_bytes
+    from beamplan.report.diagram import diagram_picture, write_atomic_bytes
+    from beamplan.report.dot import diagram_dot
 
     fmt = _format(args.output, args.format)
     if args.output == "-" and fmt in ("png", "pdf"):

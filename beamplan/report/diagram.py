@@ -6,9 +6,10 @@ rightmost, each element in the column of its longest path from a source;
 rows follow a depth-first order (no crossings in a tree, barycentre sweeps
 for the rest) and each box sits centred on what it feeds. Marks (link
 widths, heat-use fills, statuses, binding rings) are decided here too, so
-that the matplotlib picture (:func:`diagram_picture`: SVG, PNG, PDF) and
-the Graphviz text (:func:`diagram_dot`) show the same thing. The marks are
-explained in docs/pictures.md and in the legend of every picture.
+that the matplotlib picture (:func:`diagram_picture`: SVG, PNG, PDF, drawn
+by :mod:`beamplan.report.draw`) and the Graphviz text
+(:func:`beamplan.report.dot.diagram_dot`) show the same thing. The marks
+are explained in docs/pictures.md and in the legend of every picture.
 """
 
 from __future__ import annotations
@@ -33,8 +34,8 @@ from beamplan.units import format_power
 if TYPE_CHECKING:
     from beamplan.report.plots import Picture
 
-__all__ = ["HEAT_BANDS", "PALETTE", "Box", "Diagram", "Wire", "diagram_dot", "diagram_model",
-           "diagram_picture", "link_powers", "write_atomic_bytes"]
+__all__ = ["HEAT_BANDS", "PALETTE", "Box", "Diagram", "Wire", "diagram_model", "diagram_picture",
+           "link_powers", "write_atomic_bytes"]
 
 #: beamplan's own palette. Lightness alone tells the heat bands apart (they
 #: print in grey); hues run blue to brown, an axis that red-green colour
@@ -358,55 +359,6 @@ def diagram_model(network: Network, plan: Plan | None = None, *,
                    high - low, plan is not None, top)
 
 
-def _dot_quote(text: str) -> str:
-    return '"' + text.replace("\\", "\\\\").replace('"', '\\"').replace("\n", "\\n") + '"'
-
-
-def diagram_dot(network: Network, plan: Plan | None = None, *,
-                group_chains: bool = False) -> str:
-    """The diagram as Graphviz DOT text (same marks, laid out by the reader's tool).
-
-    Examples
-    --------
-    >>> import beamplan
-    >>> from beamplan.network.graph import build_network
-    >>> text = diagram_dot(build_network(beamplan.load("layouts/pilot-line.yaml")))
-    >>> text.splitlines()[0], '"m1" -> "m2"' in text
-    ('digraph "pilot-line" {', True)
-    """
-    d = diagram_model(network, plan, group_chains=group_chains)
-    shapes = {"source": "cds", "scanner": "box", "element": "box", "chain": "box", "dump": "box"}
-    out = [f"digraph {_dot_quote(network.name)} {{",
-           "  // Beam left to right; pen width proportional to power. Fill: heat use "
-           "(white none, light to dark: <50 %, 50-80 %, >80 %, at limit).",
-           "  // Rounded: scanner (dashed when short); double border: chain of gain "
-           "elements; cut corners: dump; thick outline: a binding constraint. See "
-           "docs/pictures.md.",
-           f"  graph [rankdir=LR, label={_dot_quote(d.title + chr(10) + d.subtitle)}, "
-           'labelloc=t, fontname="sans-serif", nodesep=0.2, ranksep=0.6];',
-           f'  node [fontname="sans-serif", fontsize=9, style=filled, color="{PALETTE["ink"]}"];',
-           f'  edge [fontname="sans-serif", fontsize=8, color="{PALETTE["beam"]}", '
-           "arrowsize=0.5];"]
-    for b in d.boxes.values():
-        style = ["filled"] + (["rounded"] if b.shape == "scanner" else []) + \
-            (["dashed"] if b.dashed else []) + (["diagonals"] if b.shape == "dump" else [])
-        extra = ", peripheries=2" if b.shape == "chain" else ""
-        if b.binds:
-            extra += f', penwidth=3, color="{PALETTE["bind"]}"'
-        out.append(f"  {_dot_quote(b.key)} [label={_dot_quote(chr(10).join(b.lines))}, "
-                   f'shape={shapes[b.shape]}, style="{",".join(style)}", '
-                   f'fillcolor="{b.fill}"{extra}];')
-    for w in d.wires:
-        idle = ', style=dotted, color="' + PALETTE["idle"] + '"' if w.power_w == 0 else ""
-        out.append(f"  {_dot_quote(w.tail)} -> {_dot_quote(w.head)} [penwidth="
-                   f"{w.width_pt:.2f}, label={_dot_quote(w.label)}{idle}];")
-    for rank, shape in (("source", "source"), ("sink", "scanner")):
-        keys = " ".join(_dot_quote(b.key) for b in d.boxes.values() if b.shape == shape)
-        if keys:
-            out.append(f"  {{rank={rank}; {keys}}}")
-    return "\n".join([*out, "}"]) + "\n"
-
-
 def diagram_picture(network: Network, plan: Plan | None = None, *,
                     group_chains: bool = False) -> Picture:
     """The diagram drawn with matplotlib, with its legend and the safety caution.
@@ -419,7 +371,7 @@ def diagram_picture(network: Network, plan: Plan | None = None, *,
     >>> "litho-p2" in diagram_picture(net, beamplan.plan(net)).svg()
     True
     """
-    from beamplan.report.plots import draw_diagram
+    from beamplan.report.draw import draw_diagram
 
     return draw_diagram(diagram_model(network, plan, group_chains=group_chains))
 

@@ -24,7 +24,7 @@ from beamplan.report.diagram import PALETTE, diagram_picture
 from beamplan.report.plots import Picture, headroom_chart, losses_chart
 from beamplan.units import format_power
 
-__all__ = ["FAMILIES", "plan_html"]
+__all__ = ["CSS", "FAMILIES", "facts", "figure", "inline_svg", "pct", "plan_html", "table"]
 
 #: What each family of binding constraint means, in words.
 FAMILIES = {
@@ -38,7 +38,7 @@ FAMILIES = {
     "demand": "a scanner gets exactly its need, and that need holds the goal back",
 }
 
-_CSS = string.Template("""
+CSS = string.Template("""
 :root { color-scheme: light; }
 svg * { stroke-linejoin: round; stroke-linecap: butt; }
 body { font-family: system-ui, sans-serif; color: $ink; background: #fff; line-height: 1.4;
@@ -82,12 +82,12 @@ _SECTIONS = (("summary", "Summary"), ("scanners", "Scanners"), ("diagram", "Powe
              ("provenance", "Provenance"))
 
 
-def _pct(value: float) -> str:
+def pct(value: float) -> str:
     return f"{value * 100:+.1f}%"
 
 
-def _table(caption: str, header: Sequence[str], rows: Iterable[Sequence[str]],
-           numeric: Sequence[int] = ()) -> str:
+def table(caption: str, header: Sequence[str], rows: Iterable[Sequence[str]],
+          numeric: Sequence[int] = ()) -> str:
     """An HTML table; every cell is escaped; columns in ``numeric`` align right."""
     def cell(tag: str, i: int, text: str) -> str:
         kind = ' class="num"' if i in numeric else ""
@@ -101,7 +101,7 @@ def _table(caption: str, header: Sequence[str], rows: Iterable[Sequence[str]],
             f"<tbody>\n{body}\n</tbody>\n</table>")
 
 
-def _facts(pairs: Iterable[tuple[str, str]]) -> str:
+def facts(pairs: Iterable[tuple[str, str]]) -> str:
     items = "\n".join(f"<dt>{escape(k)}</dt><dd>{escape(v)}</dd>" for k, v in pairs)
     return f'<dl class="facts">\n{items}\n</dl>'
 
@@ -135,13 +135,13 @@ def _setting(e: ElementResult) -> str:
 
 
 def _scanners(plan: Plan) -> str:
-    rows = [[s.id, format_power(s.need_w), format_power(s.delivered_w), _pct(s.headroom),
+    rows = [[s.id, format_power(s.need_w), format_power(s.delivered_w), pct(s.headroom),
              "-" if s.max_w is None else format_power(s.max_w), str(s.priority),
              s.status if s.status == "met" else f"{s.status}: {format_power(s.shortfall_w)}"]
             for s in plan.scanners]
-    out = [_table("Power at each scanner's intermediate focus (IF)", ["scanner", "need",
-                  "delivered", "headroom", "max_power", "priority", "status"], rows,
-                  (1, 2, 3, 4, 5))]
+    out = [table("Power at each scanner's intermediate focus (IF)", ["scanner", "need",
+                 "delivered", "headroom", "max_power", "priority", "status"], rows,
+                 (1, 2, 3, 4, 5))]
     short = [s for s in plan.scanners if s.status != "met"]
     if short:
         out.append("<h3>Why scanners fall short</h3>\n<ul>" + "".join(
@@ -150,14 +150,14 @@ def _scanners(plan: Plan) -> str:
             f"{escape('; '.join(s.limits))}.</li>" for s in short) + "</ul>")
     modelled = [s for s in plan.scanners if s.target_wph is not None]
     if modelled:
-        out.append(_table("Throughput at the delivered power", ["scanner", "dose", "set by",
-                          "target", "achieved", "limit"],
-                          [[s.id, f"{(s.dose_j_m2 or 0) / 10:.1f} mJ/cm²", s.dose_set_by or "",
-                            f"{s.target_wph:.0f} wph", f"{s.achieved_wph or 0:.1f} wph",
-                            s.throughput_limit or ""] for s in modelled], (1, 3, 4)))
+        out.append(table("Throughput at the delivered power", ["scanner", "dose", "set by",
+                         "target", "achieved", "limit"],
+                         [[s.id, f"{(s.dose_j_m2 or 0) / 10:.1f} mJ/cm²", s.dose_set_by or "",
+                           f"{s.target_wph:.0f} wph", f"{s.achieved_wph or 0:.1f} wph",
+                           s.throughput_limit or ""] for s in modelled], (1, 3, 4)))
     if any(s.need_provenance not in ("", GIVEN) for s in plan.scanners):
-        out.append(_table("Where each need comes from", ["scanner", "need from"],
-                          [[s.id, s.need_provenance] for s in plan.scanners]))
+        out.append(table("Where each need comes from", ["scanner", "need from"],
+                         [[s.id, s.need_provenance] for s in plan.scanners]))
     return "\n".join(out)
 
 
@@ -169,13 +169,13 @@ def _elements(plan: Plan) -> str:
         rows.append([e.id, e.kind, format_power(e.incident_w), format_power(e.absorbed_w),
                      format_power(e.output_w), f"{e.gain:.4f}",
                      "-" if e.heat_limit_w is None else format_power(e.heat_limit_w), use])
-    out = [_table("Power in, absorbed and out of every element, and its heat limit",
-                  ["element", "kind", "in", "absorbed", "out", "gain", "heat limit", "use"],
-                  rows, (2, 3, 4, 5, 6, 7))]
+    out = [table("Power in, absorbed and out of every element, and its heat limit",
+                 ["element", "kind", "in", "absorbed", "out", "gain", "heat limit", "use"],
+                 rows, (2, 3, 4, 5, 6, 7))]
     computed = [e for e in plan.elements if e.provenance and e.provenance != GIVEN]
     if computed:
-        out.append(_table("Gains computed from physics", ["element", "gain", "how"],
-                          [[e.id, f"{e.gain:.4f}", e.provenance] for e in computed], (1,)))
+        out.append(table("Gains computed from physics", ["element", "gain", "how"],
+                         [[e.id, f"{e.gain:.4f}", e.provenance] for e in computed], (1,)))
     return "\n".join(out)
 
 
@@ -184,24 +184,24 @@ def _losses(plan: Plan) -> str:
     rows = [("delivered to scanners", plan.losses.delivered_w),
             *((f"absorbed in {kind} elements", w) for kind, w in plan.losses.by_kind),
             ("dumped", plan.losses.dumped_w), ("source output", plan.losses.source_w)]
-    return _table("Where the source power goes (sums to the source output)",
-                  ["destination", "power", "share"],
-                  [[name, format_power(w), f"{w / total:.1%}"] for name, w in rows], (1, 2))
+    return table("Where the source power goes (sums to the source output)",
+                 ["destination", "power", "share"],
+                 [[name, format_power(w), f"{w / total:.1%}"] for name, w in rows], (1, 2))
 
 
 def _binding(plan: Plan) -> str:
     if not plan.binding:
         return "<p>No constraint binds the goal's primary stage.</p>"
-    table = _table("Constraints that bind, with their shadow prices",
+    listed = table("Constraints that bind, with their shadow prices",
                    ["constraint", "kind", "shadow price", "what one step more is worth"],
                    [[b.description, b.family, f"{b.shadow_price:.4g} {b.unit}", b.meaning]
                     for b in plan.binding], (2,))
     families = sorted({b.family for b in plan.binding})
-    return table + "\n<h3>What each kind means</h3>\n" + _facts(
+    return listed + "\n<h3>What each kind means</h3>\n" + facts(
         (f, FAMILIES.get(f, f)) for f in families)
 
 
-def _figure(svg: str, caption: str, css: str) -> str:
+def figure(svg: str, caption: str, css: str) -> str:
     return (f'<figure class="{css}">\n{svg}\n<figcaption>{escape(caption)}</figcaption>\n'
             "</figure>")
 
@@ -237,18 +237,18 @@ def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
     short = [s for s in plan.scanners if s.status != "met"]
     status = plan.status.upper() + (f" ({len(short)} of {len(plan.scanners)} scanners short)"
                                     if short else "")
-    facts = [("layout", plan.layout), ("goal", plan.goal), ("status", status),
-             ("source", f"{format_power(plan.source_used_w)} used of "
-                        f"{format_power(plan.source_available_w)} available"),
-             ("delivered", f"{format_power(plan.delivered_w)} at the IF, overall efficiency "
-                           f"{plan.efficiency:.1%}"),
-             ("headroom", f"factor {plan.headroom_factor:.4f} (lowest scanner "
-                          f"{_pct(plan.headroom_factor - 1)})"),
-             ("light", f"{plan.wavelength_m * 1e9:.2f} nm, {plan.photon_energy_ev:.2f} eV "
-                       "per photon")]
+    summary = [("layout", plan.layout), ("goal", plan.goal), ("status", status),
+               ("source", f"{format_power(plan.source_used_w)} used of "
+                          f"{format_power(plan.source_available_w)} available"),
+               ("delivered", f"{format_power(plan.delivered_w)} at the IF, overall efficiency "
+                             f"{plan.efficiency:.1%}"),
+               ("headroom", f"factor {plan.headroom_factor:.4f} (lowest scanner "
+                            f"{pct(plan.headroom_factor - 1)})"),
+               ("light", f"{plan.wavelength_m * 1e9:.2f} nm, {plan.photon_energy_ev:.2f} eV "
+                         "per photon")]
     if plan.electrical_per_delivered is not None:
-        facts.append(("wall plug", f"{plan.electrical_per_delivered:.0f} kW electrical per "
-                                   "kW delivered at the IF"))
+        summary.append(("wall plug", f"{plan.electrical_per_delivered:.0f} kW electrical per "
+                                     "kW delivered at the IF"))
     settings = [e for e in plan.elements if e.setting is not None]
     diagram = inline_svg(diagram_picture(network, plan, group_chains=group_chains), "diagram",
                          f"power-flow diagram of {plan.layout}")
@@ -260,27 +260,27 @@ def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
                   ("beamplan", version), ("solver", f"{plan.solver} {plan.solver_version}"),
                   ("LP stages", str(plan.stages)), ("goal", plan.goal), ("date", when)]
     body = {
-        "summary": _facts(facts),
-        "scanners": _scanners(plan) + "\n" + _figure(
+        "summary": facts(summary),
+        "scanners": _scanners(plan) + "\n" + figure(
             plots["headroom"], "Delivered power (bars) against each need (tick) and "
             "max_power (diamond). Hatched bars fall short.", "plot"),
-        "diagram": _figure(f'<div class="scroll">\n{diagram}\n</div>',
-                           "Beam from left to right; line width is proportional to power. The "
-                           "legend below the diagram explains every mark. The diagram keeps "
-                           "its text size: scroll sideways for the rest; a print fits it to "
-                           "the page width.", "diagram"),
+        "diagram": figure(f'<div class="scroll">\n{diagram}\n</div>',
+                          "Beam from left to right; line width is proportional to power. The "
+                          "legend below the diagram explains every mark. The diagram keeps "
+                          "its text size: scroll sideways for the rest; a print fits it to "
+                          "the page width.", "diagram"),
         "elements": _elements(plan),
-        "settings": _table("Settings chosen by the plan", ["element", "kind", "setting"],
-                           [[e.id, e.kind, _setting(e)] for e in settings])
+        "settings": table("Settings chosen by the plan", ["element", "kind", "setting"],
+                          [[e.id, e.kind, _setting(e)] for e in settings])
         if settings else "<p>Nothing to set: no splitter or adjustable attenuator.</p>",
-        "losses": _losses(plan) + "\n" + _figure(plots["kind"], "Losses by element kind.",
-                                                 "plot") + "\n" + _figure(
+        "losses": _losses(plan) + "\n" + figure(plots["kind"], "Losses by element kind.",
+                                                "plot") + "\n" + figure(
             plots["element"], "Losses by element: the largest, then all the others.", "plot"),
         "binding": _binding(plan),
         "warnings": "<ul>" + "".join(f"<li><code>{escape(w)}</code></li>"
                                      for w in plan.warnings) + "</ul>"
         if plan.warnings else "<p>The layout check gave no warnings.</p>",
-        "provenance": _facts(provenance),
+        "provenance": facts(provenance),
     }
     sections = "\n".join(f'<section id="{key}">\n<h2>{escape(title)}</h2>\n{body[key]}\n'
                          "</section>" for key, title in _SECTIONS)
@@ -291,7 +291,7 @@ def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
 <meta charset="utf-8">
 <meta name="viewport" content="width=device-width, initial-scale=1">
 <title>{escape(f"beamplan: {plan.layout}, goal {plan.goal}, {plan.status}")}</title>
-<style>{_CSS}</style>
+<style>{CSS}</style>
 </head>
 <body>
 <header>

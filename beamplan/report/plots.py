@@ -1,14 +1,16 @@
-"""Pictures with matplotlib: the power-flow diagram and the plan plots.
+"""Pictures with matplotlib: the :class:`Picture` and the plan plots.
 
 Every function returns a :class:`Picture`, which renders to SVG text or to
-PNG / PDF bytes. matplotlib is imported only when a picture is asked for.
-The figures are plain :class:`matplotlib.figure.Figure` objects, never
-pyplot ones, so no display is needed, no global figure list grows and the
-backend of a notebook session is left alone. Text stays text in SVG.
+PNG / PDF bytes; the power-flow diagram is drawn by
+:func:`beamplan.report.draw.draw_diagram`. matplotlib is imported only when
+a picture is asked for. The figures are plain
+:class:`matplotlib.figure.Figure` objects, never pyplot ones, so no display
+is needed, no global figure list grows and the backend of a notebook
+session is left alone. Text stays text in SVG.
 
 Plots of several plans take ``list[(case name, Plan)]``
-(:func:`headroom_across_cases`), so that what-if and outage studies can
-hand over their cases as they are.
+(:func:`headroom_across_cases`), so that what-if studies can hand over
+their cases as they are; :func:`outage_impact` takes a sweep's report.
 """
 
 from __future__ import annotations
@@ -17,30 +19,20 @@ import functools
 import io
 import os
 import re
-import textwrap
 from collections.abc import Callable, Iterable, Sequence
-from dataclasses import replace
-from typing import Any, ParamSpec
+from typing import TYPE_CHECKING, Any, ParamSpec
 
 from beamplan.optimise.result import Plan
-from beamplan.report import CAUTION
-from beamplan.report.diagram import (
-    FONT_PT,
-    HEAT_BANDS,
-    LINE_IN,
-    PALETTE,
-    WIDTH_MAX_PT,
-    WIDTH_MIN_PT,
-    Box,
-    Diagram,
-    write_atomic_bytes,
-)
+from beamplan.report.diagram import PALETTE, write_atomic_bytes
 from beamplan.units import format_power
+
+if TYPE_CHECKING:
+    from beamplan.analyses.outages import OutageResult, SweepReport
 
 P = ParamSpec("P")
 
-__all__ = ["CASE_STYLES", "STYLE", "Picture", "draw_diagram", "headroom_across_cases",
-           "headroom_chart", "loss_steps", "losses_chart"]
+__all__ = ["CASE_STYLES", "STYLE", "Picture", "case_style", "headroom_across_cases",
+           "headroom_chart", "loss_steps", "losses_chart", "outage_impact"]
 
 #: matplotlib settings for every picture: text as text, no named fonts, no dates.
 STYLE: dict[str, Any] = {
@@ -126,211 +118,23 @@ def _styled(build: Callable[P, Picture]) -> Callable[P, Picture]:
     return wrapper
 
 
-def _canvas(width: float, height: float) -> tuple[Any, Any]:
-    """A figure with one axes whose data units are inches, y downwards."""
-    figure = _figure(width, height)
-    ax = figure.add_axes((0, 0, 1, 1))
-    ax.set_xlim(0, width)
-    ax.set_ylim(height, 0)
-    ax.set_axis_off()
-    return figure, ax
-
-
-# -- the diagram ----------------------------------------------------------------
-
-_STYLES = {"element": "square,pad=0", "chain": "square,pad=0", "source": "rarrow,pad=0",
-           "dump": "sawtooth,pad=0,tooth_size=0.05", "scanner": "round,pad=0,rounding_size=0.07"}
-
-
-def _draw_box(ax: Any, box: Box, x: float, y: float, width: float) -> None:
-    from matplotlib.patches import FancyBboxPatch
-
-    top, h = y - box.height / 2, box.height
-    if box.binds:  # a ring, apart from the box, so it never touches a dark fill
-        ax.add_patch(FancyBboxPatch((x - width / 2 - 0.05, top - 0.05), width + 0.1, h + 0.1,
-                                    "square,pad=0", fc="none", ec=PALETTE["bind"], lw=2.6,
-                                    zorder=2))
-    corner, style = (x - width / 2, top), _STYLES[box.shape]
-    ax.add_patch(FancyBboxPatch(corner, width, h, style, fc=box.fill, hatch=box.hatch, lw=0,
-                                ec=PALETTE["idle"], zorder=3))  # a grey hatch, no border
-    ax.add_patch(FancyBboxPatch(corner, width, h, style, fc="none", ec=PALETTE["ink"], lw=0.8,
-                                ls="--" if box.dashed else "-", zorder=3,
-                                gid=f"node-{box.key}" if box.key else None))
-    if box.shape == "chain":
-        ax.add_patch(FancyBboxPatch((x - width / 2 + 0.03, top + 0.03), width - 0.06, h - 0.06,
-                                    "square,pad=0", fc="none", ec=PALETTE["ink"], lw=0.5,
-                                    zorder=3))
-    colour = PALETTE["paper"] if box.fill == PALETTE["heat-4"] else PALETTE["ink"]
-    for i, line in enumerate(box.lines):
-        ax.text(x, top + 0.05 + LINE_IN * (i + 0.5), line, ha="center", va="center",
-                fontsize=FONT_PT, color=colour, zorder=4,
-                fontweight="bold" if i == 0 and box.shape != "chain" else "normal",
-                bbox={"boxstyle": "square,pad=0.25", "fc": PALETTE["paper"], "ec": "none"}
-                if box.hatch else None)
-
-
-def _wire_path(d: Diagram, xs: list[float], ys: list[float], y0: float, y1: float) -> Any:
-    from matplotlib.path import Path
-
-    half = d.box_width / 2
-    ys = [y0, *ys[1:-1], y1]
-    verts, codes = [(xs[0] + half, ys[0])], [Path.MOVETO]
-    for i in range(1, len(xs)):  # an S-bend over the first half of a gap, then straight
-        xa, ya, xb, yb = xs[i - 1] + half, ys[i - 1], xs[i] - half, ys[i]
-        bend = xa + (xb - xa) / 2
-        verts += [((xa + bend) / 2, ya), ((xa + bend) / 2, yb), (bend, yb), (xb, yb)]
-        codes += [Path.CURVE4] * 3 + [Path.LINETO]
-        if i < len(xs) - 1:  # a column passed by: straight through
-            verts.append((xs[i] + half, yb))
-            codes.append(Path.LINETO)
-    return Path(verts, codes)
-
-
-def _slots(d: Diagram) -> dict[tuple[int, str], float]:
-    """Where each wire meets its boxes: ports spread along the box edge, in row order."""
-    out: dict[tuple[int, str], float] = {}
-    for end, near in (("tail", 1), ("head", -2)):
-        groups: dict[str, list[Any]] = {}
-        for w in d.wires:
-            groups.setdefault(getattr(w, end), []).append(w)
-        for key, wires in groups.items():
-            wires.sort(key=lambda w: w.ys[near])
-            step = min(0.09, 0.8 * d.boxes[key].height / len(wires))
-            for i, w in enumerate(wires):
-                out[(w.index, end)] = d.boxes[key].y + (i - (len(wires) - 1) / 2) * step
-    return out
-
-
-def _legend_items(d: Diagram) -> list[tuple[str, list[tuple[str, Any]]]]:
-    """The legend's groups of (words, mark): only the box marks the diagram shows."""
-    planned, paper = d.planned, PALETTE["paper"]
-    shapes = [
-        ("source: drawn of available" if planned else "source: available power",
-         Box("", (), "source", (), PALETTE["source"])),
-        ("element: id, kind, power in" if planned else "element: id, kind, gain",
-         Box("", (), "element", (), PALETTE["heat-none"])),
-        ("chain of gain elements", Box("", (), "chain", (), PALETTE["heat-none"])),
-        ("dump", Box("", (), "dump", (), PALETTE["dump"])),
-        ("scanner: need met, headroom" if planned else "scanner: id, need",
-         Box("", (), "scanner", (), PALETTE["met"])),
-        ("scanner short of its need", Box("", (), "scanner", (), paper, "////", True)),
-        ("scanner cut off (no power)", Box("", (), "scanner", (), paper, "xxxx", True)),
-        ("ring: a binding constraint", Box("", (), "element", (), paper, binds=("x",)))]
-    shown = {(b.shape, b.hatch) for b in d.boxes.values()} | \
-        ({("element", None)} if d.boxes else set())
-    ringed = any(b.binds for b in d.boxes.values())
-    marks: list[tuple[str, Any]] = [(words, box) for words, box in shapes if (
-        ringed if box.binds else (box.shape, box.hatch) in shown)]
-    if not planned:
-        return [("Beam, left to right", [("a link (no plan, so no powers)", 1.2)]),
-                ("Boxes", marks)]
-    top = d.max_power_w
-    beams: list[tuple[str, Any]] = [
-        (f"{format_power(top)}: the largest power", WIDTH_MAX_PT),
-        (f"{format_power(top / 2)}", WIDTH_MAX_PT / 2),
-        (f"{format_power(top * WIDTH_MIN_PT / WIDTH_MAX_PT)} or less", WIDTH_MIN_PT),
-        ("carries no power", 0.0)]
-    heat = [("no heat limit", PALETTE["heat-none"]),
-            *((words, PALETTE[key]) for key, words, _ in HEAT_BANDS)]
-    return [("Beam, left to right; width ∝ power", beams),
-            ("Heat: absorbed ÷ heat limit", heat), ("Boxes", marks)]
-
-
-def _draw_legend(ax: Any, d: Diagram, x0: float, y0: float) -> None:
-    from matplotlib.patches import FancyBboxPatch
-
-    groups = _legend_items(d)
-    for g, (title, items) in enumerate(groups):
-        x = x0 + g * 2.9
-        ax.text(x, y0, title, fontsize=FONT_PT + 0.5, fontweight="bold", va="top")
-        for i, (words, mark) in enumerate(items):
-            y = y0 + 0.24 + i * 0.2
-            if isinstance(mark, Box):
-                _draw_box(ax, replace(mark, height=0.13), x + 0.25, y, 0.42)
-            elif isinstance(mark, str):
-                ax.add_patch(FancyBboxPatch((x + 0.04, y - 0.065), 0.42, 0.13, "square,pad=0",
-                                            fc=mark, ec=PALETTE["ink"], lw=0.6))
-            else:
-                ax.plot([x + 0.04, x + 0.46], [y, y], lw=max(mark, WIDTH_MIN_PT),
-                        ls=":" if mark == 0 else "-", solid_capstyle="butt",
-                        color=PALETTE["idle"] if mark == 0 else PALETTE["beam"])
-            ax.text(x + 0.58, y, words, fontsize=FONT_PT, va="center")
-    if d.planned:
-        ax.text(x0, y0 + _legend_height(d) - 0.12, "Link labels: output port; power · share "
-                "of the source output. Box text: power in, heat use, setting, what binds.",
-                fontsize=FONT_PT)
-
-
-def _legend_height(d: Diagram) -> float:
-    rows = max(len(items) for _, items in _legend_items(d))
-    return 0.3 + rows * 0.2 + (0.25 if d.planned else 0.0)
-
-
-@_styled
-def draw_diagram(d: Diagram) -> Picture:
-    """Draw a laid-out :class:`~beamplan.report.diagram.Diagram` with legend and caution.
-
-    Examples
-    --------
-    >>> import beamplan
-    >>> from beamplan.network.graph import build_network
-    >>> from beamplan.report.diagram import diagram_model
-    >>> net = build_network(beamplan.load("layouts/pilot-line.yaml"))
-    >>> bool(draw_diagram(diagram_model(net)).figure.get_size_inches()[0] > 8)
-    True
-    """
-    margin, head = 0.35, 0.6
-    groups = len(_legend_items(d))
-    width = max(d.x[-1] + d.box_width + 2 * margin + 0.2, groups * 2.9 + 2 * margin)
-    legend_top = head + d.height + 0.45
-    caution = textwrap.wrap(CAUTION, int(width * 72 / (6.0 * 0.55)))
-    height = legend_top + _legend_height(d) + 0.15 * len(caution) + 0.35
-    figure, ax = _canvas(width, height)
-    ax.text(margin, 0.25, d.title, fontsize=11, fontweight="bold", va="center")
-    ax.text(margin, 0.45, d.subtitle, fontsize=7.5, va="center")
-    xs = [margin + d.box_width / 2 + x for x in d.x]
-    slots = _slots(d)
-    for w in d.wires:
-        from matplotlib.patches import PathPatch
-
-        first, last = d.boxes[w.tail].column, d.boxes[w.head].column
-        ys = [head + y for y in w.ys]
-        path = _wire_path(d, xs[first:last + 1], ys, head + slots[(w.index, "tail")],
-                          head + slots[(w.index, "head")])
-        idle = w.power_w == 0
-        ax.add_patch(PathPatch(path, fill=False, lw=w.width_pt, capstyle="butt", zorder=1,
-                               ec=PALETTE["idle" if idle else "beam"], ls=":" if idle else "-",
-                               gid=f"link-{w.index}"))
-        if w.label:
-            xa, xb = xs[first] + d.box_width / 2, xs[first + 1] - d.box_width / 2
-            yb = ys[1] if last > first + 1 else head + slots[(w.index, "head")]
-            ax.text(xa + 0.68 * (xb - xa), yb - w.width_pt / 144 - 0.015, w.label,
-                    ha="center", va="bottom", fontsize=FONT_PT - 1, zorder=5,
-                    linespacing=1.1, bbox={"boxstyle": "square,pad=0.08", "ec": "none",
-                                           "fc": PALETTE["paper"], "alpha": 0.85})
-    for box in d.boxes.values():
-        _draw_box(ax, box, xs[box.column], head + box.y, d.box_width)
-    _draw_legend(ax, d, margin, legend_top)
-    ax.text(margin, height - 0.2 - 0.15 * len(caution), "\n".join(caution), fontsize=6.0,
-            style="italic", va="top", color=PALETTE["ink"])
-    return Picture(figure, "diagram")
-
-
 # -- plan plots -----------------------------------------------------------------
 
 def _axes(width: float, body: float, left: float, title: str, subtitle: str,
-          legend: list[Any] | None = None, bottom: float = 0.55) -> tuple[Any, Any]:
+          legend: list[Any] | None = None, bottom: float = 0.55, right: float = 0.3
+          ) -> tuple[Any, Any]:
     """A figure with a title, an optional legend row and one axes ``body`` inches high."""
     rows = 0 if legend is None else (len(legend) + 3) // 4
     top = 0.5 + 0.2 * rows
     height = body + top + bottom
     figure = _figure(width, height)
-    ax = figure.add_axes((left / width, bottom / height, 1 - (left + 0.3) / width,
+    ax = figure.add_axes((left / width, bottom / height, 1 - (left + right) / width,
                           body / height))
     figure.text(0.12 / width, 1 - 0.18 / height, title, fontsize=9, fontweight="bold",
                 va="center")
     figure.text(0.12 / width, 1 - 0.36 / height, subtitle, fontsize=7, va="center")
-    if legend:
+    if legend:  # matplotlib fills the columns first: reorder so that the rows read in order
+        legend = [legend[i] for c in range(4) for i in range(c, len(legend), 4)]
         figure.legend(handles=legend, loc="upper left", ncols=4, fontsize=6.5,
                       bbox_to_anchor=(0.06 / width, 1 - 0.45 / height), borderaxespad=0)
     return figure, ax
@@ -455,11 +259,25 @@ def losses_chart(plan: Plan, by: str = "kind", top: int = 8) -> Picture:
     return Picture(figure, f"losses-{by}")
 
 
+def case_style(k: int) -> tuple[str, str]:
+    """The (colour, marker) of the ``k``-th case: colours cycle, and the markers shift
+    by one every round of colours, so that 36 cases stay apart.
+
+    Examples
+    --------
+    >>> case_style(0) == CASE_STYLES[0], case_style(6)
+    (True, ('#1b4f8a', 's'))
+    """
+    n = len(CASE_STYLES)
+    return CASE_STYLES[k % n][0], CASE_STYLES[(k + k // n) % n][1]
+
+
 @_styled
 def headroom_across_cases(cases: Sequence[tuple[str, Plan]]) -> Picture:
     """Every scanner's headroom in several plans (what-if cases, outages).
 
-    A scanner missing from a case (taken out by it) has no mark there.
+    A scanner missing from a case (dropped by it) or out of service in it has
+    no mark there; a scanner cut off sits at −100 %.
 
     Examples
     --------
@@ -472,18 +290,19 @@ def headroom_across_cases(cases: Sequence[tuple[str, Plan]]) -> Picture:
     from matplotlib.lines import Line2D
 
     ids = list(dict.fromkeys(s.id for _, plan in cases for s in plan.scanners))
-    styles = [CASE_STYLES[k % len(CASE_STYLES)] for k in range(len(cases))]
+    styles = [case_style(k) for k in range(len(cases))]
     legend = [Line2D([], [], ls="none", marker=marker, ms=5, mfc=colour, mec=PALETTE["ink"],
                      mew=0.5, label=name) for (name, _), (colour, marker) in zip(cases, styles,
                                                                                    strict=True)]
     figure, ax = _axes(7.5, 0.4 + 0.3 * len(ids), _left(ids), "Headroom across cases",
-                       f"{len(cases)} cases; one mark per case and scanner; 0 % is the need",
-                       legend)
+                       f"{len(cases)} cases; one mark per case and scanner; 0 % is the need; "
+                       "no mark: dropped or out of service", legend)
     row = {sid: i for i, sid in enumerate(ids)}
     spread = 0.5 / max(len(cases), 1)
     for k, ((_, plan), mark) in enumerate(zip(cases, legend, strict=True)):
-        ax.plot([100 * s.headroom for s in plan.scanners],
-                [row[s.id] + (k - (len(cases) - 1) / 2) * spread for s in plan.scanners],
+        serving = [s for s in plan.scanners if s.status != "out of service"]
+        ax.plot([100 * s.headroom for s in serving],
+                [row[s.id] + (k - (len(cases) - 1) / 2) * spread for s in serving],
                 ls="none", marker=mark.get_marker(), ms=5, mfc=mark.get_markerfacecolor(),
                 mec=PALETTE["ink"], mew=0.5)
     ax.axvline(0, color=PALETTE["ink"], lw=0.9)
@@ -492,3 +311,72 @@ def headroom_across_cases(cases: Sequence[tuple[str, Plan]]) -> Picture:
     ax.set_xlabel("headroom: delivered ÷ need − 1 (%)")
     _grid(ax, "x")
     return Picture(figure, "cases")
+
+
+def _impact_words(r: OutageResult) -> str:
+    """What an outage does, in a few words: whom it cuts off or leaves short, power lost."""
+    words = []
+    if r.cut_off:
+        words.append("cuts off " + ", ".join(r.cut_off[:3]) +
+                     (f" +{len(r.cut_off) - 3} more" if len(r.cut_off) > 3 else ""))
+    if len(r.short) > len(r.cut_off):
+        words.append(f"{len(r.short) - len(r.cut_off)} short")
+    if r.delivered_lost_w > 0:
+        words.append(f"−{format_power(r.delivered_lost_w)} delivered")
+    return "; ".join(words) or "no loss"
+
+
+@_styled
+def outage_impact(report: SweepReport, top: int = 20) -> Picture:
+    """The ``top`` outages of a sweep in its ranking, as bars of the headroom they cost.
+
+    A bar is the lowest headroom of the base minus that of the case (points
+    of % of need); cross-hatched when the outage cuts a scanner off, hatched
+    when it leaves one short but fed. The words beside each bar name the
+    scanners cut off, how many others fall short and the delivered power lost.
+
+    Examples
+    --------
+    >>> from beamplan.analyses.outages import outage_cases, run_sweep
+    >>> from beamplan.layout.loader import load_layout
+    >>> from beamplan.network.graph import build_network
+    >>> net = build_network(load_layout("layouts/pilot-line.yaml"))
+    >>> "cuts off litho-p2" in outage_impact(run_sweep(net, outage_cases(net))).svg()
+    True
+    """
+    from matplotlib.patches import Patch
+
+    ink, rows = PALETTE["ink"], report.results[:max(top, 0)]
+    words = [_impact_words(r) for r in rows]
+    marks = [("met", PALETTE["beam"], None), ("short", PALETTE["paper"], "////"),
+             ("cut off", PALETTE["paper"], "xxxx")]
+    legend = [Patch(fc=fill, ec=ink, hatch=hatch, label=f"every scanner {name}"
+                    if name == "met" else f"a scanner {name}") for name, fill, hatch in marks]
+    shown = f"the top {len(rows)} of {report.finished}" if len(rows) < report.finished \
+        else f"all {report.finished}"
+    right = 0.4 + 0.052 * max((len(w) for w in words), default=0)
+    figure, ax = _axes(max(7.5, 4.5 + right), 0.3 + 0.26 * max(len(rows), 1),
+                       _left(r.label for r in rows), f"Outage impact: {report.layout}",
+                       f"{shown} outage cases, ranked: scanners cut off, then short, then "
+                       f"headroom lost; base lowest headroom "
+                       f"{report.base.headroom_factor - 1:+.1%}" +
+                       (" (sweep interrupted)" if report.interrupted else ""), legend,
+                       right=right)
+    lost = [100 * r.headroom_lost for r in rows]
+    for i, (r, value, text) in enumerate(zip(rows, lost, words, strict=True)):
+        _, fill, hatch = marks[2 if r.cut_off else 1 if r.short else 0]
+        ax.barh(i, value, 0.56, color=fill, edgecolor=ink, lw=0.6, hatch=hatch)
+        ax.annotate(text, (1, i), xycoords=("axes fraction", "data"), xytext=(6, 0),
+                    textcoords="offset points", va="center", fontsize=6.5, annotation_clip=False)
+    if not rows:
+        ax.text(0.5, 0.5, "no outage cases", transform=ax.transAxes, ha="center", va="center")
+    ax.axvline(0, color=ink, lw=0.9)
+    ax.set_yticks(range(len(rows)), [r.label for r in rows])
+    ax.set_ylim(max(len(rows), 1) - 0.4, -0.6)
+    low, high = min([0.0, *lost]), max([0.0, *lost])
+    pad = 0.05 * (high - low) or 1.0
+    ax.set_xlim(low - (pad if low < 0 else 0.0), high + pad)
+    ax.set_xlabel("headroom lost: base lowest headroom − case lowest headroom (points of % "
+                  "of need)")
+    _grid(ax, "x")
+    return Picture(figure, "outages")

@@ -1,0 +1,63 @@
+"""The power-flow diagram as Graphviz DOT text.
+
+The same boxes, marks and words as the matplotlib picture
+(:func:`beamplan.report.diagram.diagram_model` decides them all); the
+reader's Graphviz lays them out.
+"""
+
+from __future__ import annotations
+
+from beamplan.network.graph import Network
+from beamplan.optimise.result import Plan
+from beamplan.report.diagram import PALETTE, diagram_model
+
+__all__ = ["diagram_dot"]
+
+
+def _dot_quote(text: str) -> str:
+    return '"' + text.replace("\\", "\\\\").replace('"', '\\"').replace("\n", "\\n") + '"'
+
+
+def diagram_dot(network: Network, plan: Plan | None = None, *,
+                group_chains: bool = False) -> str:
+    """The diagram as Graphviz DOT text (same marks, laid out by the reader's tool).
+
+    Examples
+    --------
+    >>> import beamplan
+    >>> from beamplan.network.graph import build_network
+    >>> text = diagram_dot(build_network(beamplan.load("layouts/pilot-line.yaml")))
+    >>> text.splitlines()[0], '"m1" -> "m2"' in text
+    ('digraph "pilot-line" {', True)
+    """
+    d = diagram_model(network, plan, group_chains=group_chains)
+    shapes = {"source": "cds", "scanner": "box", "element": "box", "chain": "box", "dump": "box"}
+    out = [f"digraph {_dot_quote(network.name)} {{",
+           "  // Beam left to right; pen width proportional to power. Fill: heat use "
+           "(white none, light to dark: <50 %, 50-80 %, >80 %, at limit).",
+           "  // Rounded: scanner (dashed when short); double border: chain of gain "
+           "elements; cut corners: dump; thick outline: a binding constraint. See "
+           "docs/pictures.md.",
+           f"  graph [rankdir=LR, label={_dot_quote(d.title + chr(10) + d.subtitle)}, "
+           'labelloc=t, fontname="sans-serif", nodesep=0.2, ranksep=0.6];',
+           f'  node [fontname="sans-serif", fontsize=9, style=filled, color="{PALETTE["ink"]}"];',
+           f'  edge [fontname="sans-serif", fontsize=8, color="{PALETTE["beam"]}", '
+           "arrowsize=0.5];"]
+    for b in d.boxes.values():
+        style = ["filled"] + (["rounded"] if b.shape == "scanner" else []) + \
+            (["dashed"] if b.dashed else []) + (["diagonals"] if b.shape == "dump" else [])
+        extra = ", peripheries=2" if b.shape == "chain" else ""
+        if b.binds:
+            extra += f', penwidth=3, color="{PALETTE["bind"]}"'
+        out.append(f"  {_dot_quote(b.key)} [label={_dot_quote(chr(10).join(b.lines))}, "
+                   f'shape={shapes[b.shape]}, style="{",".join(style)}", '
+                   f'fillcolor="{b.fill}"{extra}];')
+    for w in d.wires:
+        idle = ', style=dotted, color="' + PALETTE["idle"] + '"' if w.power_w == 0 else ""
+        out.append(f"  {_dot_quote(w.tail)} -> {_dot_quote(w.head)} [penwidth="
+                   f"{w.width_pt:.2f}, label={_dot_quote(w.label)}{idle}];")
+    for rank, shape in (("source", "source"), ("sink", "scanner")):
+        keys = " ".join(_dot_quote(b.key) for b in d.boxes.values() if b.shape == shape)
+        if keys:
+            out.append(f"  {{rank={rank}; {keys}}}")
+    return "\n".join([*out, "}"]) + "\n"
