@@ -50,7 +50,16 @@ def _command_line_case(args: argparse.Namespace) -> str | None:
         " " + c for c in changes) + "\n"
 
 
+def _refuse_early(args: argparse.Namespace) -> None:
+    """Refuse an output that names an input before any planning is done."""
+    from beamplan.report.files import refuse_inputs
+
+    inputs = [p for p in (args.layout, getattr(args, "cases", None)) if p]
+    refuse_inputs([args.json, getattr(args, "html", None)], inputs)
+
+
 def _cases(args: argparse.Namespace) -> int:
+    _refuse_early(args)
     from beamplan.analyses.cases import parse_cases
     from beamplan.analyses.compare import compare_cases
     from beamplan.cli.commands import _existing_file
@@ -128,6 +137,7 @@ def _outputs(args: argparse.Namespace, what: str, result: Any,
 
 
 def _sweep(args: argparse.Namespace) -> int:
+    _refuse_early(args)
     from beamplan.analyses.outages import outage_cases, run_sweep
     from beamplan.cli.commands import _load_network
     from beamplan.report.progress import progress_bar

@@ -64,7 +64,9 @@ def _check(args: argparse.Namespace) -> int:
 
 def _plan(args: argparse.Namespace) -> int:
     from beamplan.optimise.planner import plan_network
+    from beamplan.report.files import refuse_inputs
 
+    refuse_inputs([args.json, args.html], [args.layout])
     network = _load_network(args.layout)
     to_stdout = args.json == "-"
     if not args.quiet:

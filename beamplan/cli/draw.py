@@ -28,8 +28,9 @@ def _format(output: str, chosen: str | None) -> str:
 
 def _draw(args: argparse.Namespace) -> int:
     from beamplan.cli.commands import _load_network, _print_warnings
-    from beamplan.report.diagram import diagram_picture, write_atomic_bytes
+    from beamplan.report.diagram import diagram_picture
     from beamplan.report.dot import diagram_dot
+    from beamplan.report.files import write_atomic
 
     fmt = _format(args.output, args.format)
     if args.output == "-" and fmt in ("png", "pdf"):
@@ -50,7 +51,7 @@ def _draw(args: argparse.Namespace) -> int:
         sys.stdout.write(data.decode("utf-8"))
         sys.stdout.flush()
     else:
-        write_atomic_bytes(args.output, data, [args.layout])
+        write_atomic(args.output, data, [args.layout])
         if not args.quiet:
             what = f"with the {plan.goal} plan ({plan.status})" if plan else "without a plan"
             sys.stdout.write(f"{args.layout}: drew '{network.name}' {what} to {args.output} "

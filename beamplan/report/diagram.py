@@ -14,28 +14,22 @@ are explained in docs/pictures.md and in the legend of every picture.
 
 from __future__ import annotations
 
-import contextlib
 import itertools
 import math
-import os
-import tempfile
 import textwrap
-from collections.abc import Iterable
 from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING
 
-from beamplan.errors import OutputError, UsageError
 from beamplan.network.behaviour import Behaviour
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
-from beamplan.report.files import _same_file
 from beamplan.units import format_power
 
 if TYPE_CHECKING:
     from beamplan.report.plots import Picture
 
 __all__ = ["HEAT_BANDS", "PALETTE", "Box", "Diagram", "Wire", "diagram_model", "diagram_picture",
-           "link_powers", "write_atomic_bytes"]
+           "link_powers"]
 
 #: beamplan's own palette. Lightness alone tells the heat bands apart (they
 #: print in grey); hues run blue to brown, an axis that red-green colour
@@ -374,42 +368,3 @@ def diagram_picture(network: Network, plan: Plan | None = None, *,
     from beamplan.report.draw import draw_diagram
 
     return draw_diagram(diagram_model(network, plan, group_chains=group_chains))
-
-
-def write_atomic_bytes(path: str, data: bytes, inputs: Iterable[str] = ()) -> None:
-    """Write ``data`` to ``path`` through a temporary file in its folder and a rename.
-
-    Raises
-    ------
-    UsageError
-        ``path`` is one of ``inputs`` (beamplan never writes over an input).
-    OutputError
-        The file cannot be written.
-
-    Examples
-    --------
-    >>> import os, tempfile
-    >>> target = os.path.join(tempfile.mkdtemp(), "out.png")
-    >>> write_atomic_bytes(target, b"\\x89PNG")
-    >>> with open(target, "rb") as handle:
-    ...     handle.read()
-    b'\\x89PNG'
-    """
-    for source in inputs:
-        if os.path.exists(path) and _same_file(path, source):
-            raise UsageError(f"refusing to write over the input file {path!r}; "
-                             "choose another output name")
-    folder = os.path.dirname(os.path.abspath(path))
-    try:
-        handle, temp = tempfile.mkstemp(prefix=".beamplan-", suffix=".tmp", dir=folder)
-    except OSError as exc:
-        raise OutputError(f"cannot write {path!r}: {exc.strerror or exc}") from exc
-    try:
-        with os.fdopen(handle, "wb") as out:
-            out.write(data)
-        os.chmod(temp, 0o644)
-        os.replace(temp, path)
-    except OSError as exc:
-        with contextlib.suppress(OSError):
-            os.unlink(temp)
-        raise OutputError(f"cannot write {path!r}: {exc.strerror or exc}") from exc

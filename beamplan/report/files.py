@@ -9,7 +9,7 @@ from collections.abc import Iterable
 
 from beamplan.errors import OutputError, UsageError
 
-__all__ = ["write_atomic"]
+__all__ = ["refuse_inputs", "write_atomic"]
 
 
 def _same_file(a: str, b: str) -> bool:
@@ -19,8 +19,33 @@ def _same_file(a: str, b: str) -> bool:
         return os.path.realpath(a) == os.path.realpath(b)
 
 
-def write_atomic(path: str, text: str, inputs: Iterable[str] = ()) -> None:
-    """Write ``text`` to ``path`` through a temporary file and a rename.
+def refuse_inputs(outputs: Iterable[str | None], inputs: Iterable[str]) -> None:
+    """Refuse, before any work, an output path that names an input file.
+
+    Raises
+    ------
+    UsageError
+        An output is one of the inputs.
+
+    Examples
+    --------
+    >>> refuse_inputs(["out.json", None], ["layouts/pilot-line.yaml"])
+    >>> refuse_inputs(["layouts/pilot-line.yaml"], ["layouts/pilot-line.yaml"])
+    Traceback (most recent call last):
+    ...
+    beamplan.errors.UsageError: refusing to write over the input file ...
+    """
+    sources = list(inputs)
+    for path in outputs:
+        if path and path != "-":
+            for source in sources:
+                if os.path.exists(path) and _same_file(path, source):
+                    raise UsageError(f"refusing to write over the input file {path!r}; "
+                                     "choose another output name")
+
+
+def write_atomic(path: str, text: str | bytes, inputs: Iterable[str] = ()) -> None:
+    """Write ``text`` (or bytes) to ``path`` through a temporary file and a rename.
 
     Raises
     ------
@@ -43,18 +68,19 @@ def write_atomic(path: str, text: str, inputs: Iterable[str] = ()) -> None:
     ...
     beamplan.errors.UsageError: refusing to write over the input file ...
     """
-    for source in inputs:
-        if os.path.exists(path) and _same_file(path, source):
-            raise UsageError(f"refusing to write over the input file {path!r}; "
-                             "choose another output name")
+    refuse_inputs([path], inputs)
     folder = os.path.dirname(os.path.abspath(path))
     try:
         handle, temp = tempfile.mkstemp(prefix=".beamplan-", suffix=".tmp", dir=folder)
     except OSError as exc:
         raise OutputError(f"cannot write {path!r}: {exc.strerror or exc}") from exc
     try:
-        with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
-            out.write(text)
+        if isinstance(text, bytes):
+            with os.fdopen(handle, "wb") as raw:
+                raw.write(text)
+        else:
+            with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
+                out.write(text)
         os.chmod(temp, 0o644)
         os.replace(temp, path)
     except OSError as exc:

@@ -23,7 +23,8 @@ from collections.abc import Callable, Iterable, Sequence
 from typing import TYPE_CHECKING, Any, ParamSpec
 
 from beamplan.optimise.result import Plan
-from beamplan.report.diagram import PALETTE, write_atomic_bytes
+from beamplan.report.diagram import PALETTE
+from beamplan.report.files import write_atomic
 from beamplan.units import format_power
 
 if TYPE_CHECKING:
@@ -91,7 +92,7 @@ class Picture:
     def save(self, path: str, inputs: Iterable[str] = ()) -> None:
         """Write the picture to ``path`` atomically, in the format its suffix names."""
         fmt = os.path.splitext(path)[1].lower().lstrip(".")
-        write_atomic_bytes(path, self.data(fmt), inputs)
+        write_atomic(path, self.data(fmt), inputs)
 
 
 def _rc(salt: str = "beamplan") -> Any:
