@@ -131,12 +131,19 @@ class HighsBackend:
     def solve(self) -> RawSolution:
         status_enum = self._highspy.HighsModelStatus
         self.highs.run()
-        if not self._warm:
-            # Presolve pays on the first (cold) solve; re-solves of an edited model
-            # start from the last basis, and presolving them again costs a third more.
+        status = self.highs.getModelStatus()
+        if status != status_enum.kOptimal and self._warm:
+            # A warm start from a stale basis may misjudge the LP: solve it afresh.
+            self.highs.setOptionValue("presolve", "on")
+            self.highs.clearSolver()
+            self.highs.run()
+            status = self.highs.getModelStatus()
+            self._warm = False
+        if status == status_enum.kOptimal and not self._warm:
+            # Presolve pays on a cold solve; re-solves of an edited model start from
+            # the last optimal basis, and presolving them again costs a third more.
             self.highs.setOptionValue("presolve", "off")
             self._warm = True
-        status = self.highs.getModelStatus()
         if status == status_enum.kOptimal:
             text = "optimal"
         elif status in (status_enum.kInfeasible, status_enum.kUnboundedOrInfeasible):
