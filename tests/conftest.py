@@ -6,6 +6,13 @@ import os
 import pathlib
 
 import pytest
+from hypothesis import settings
+
+# Property tests are reproducible by default (CI must not fail at random); run
+# HYPOTHESIS_PROFILE=explore python -m pytest to search with fresh random examples.
+settings.register_profile("beamplan", derandomize=True, database=None, deadline=None)
+settings.register_profile("explore", derandomize=False, deadline=None, max_examples=200)
+settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "beamplan"))
 
 ROOT = pathlib.Path(__file__).resolve().parent.parent
 LAYOUTS = ROOT / "layouts"

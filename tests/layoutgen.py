@@ -246,7 +246,7 @@ class _Builder:
         else:
             eid = self.new_id("v")
             low = ch.uniform(0.0, 0.9, 3)
-            high = ch.uniform(low, 1.0, 3)
+            high = ch.uniform(max(low, 0.3), 1.0, 3)
             if high <= low:
                 high = 1.0
             e = {"kind": "attenuator", "transmission": [low, high]}

@@ -216,6 +216,23 @@ def _idle_fractions(ports: tuple[Port, ...]) -> list[float]:
     return fractions
 
 
+def _within_bounds(fractions: list[float], ports: tuple[Port, ...]) -> list[float]:
+    """LP share ratios moved onto their bounds where round-off pushed them out.
+
+    With almost no input a share ratio is round-off; clip each to its bounds,
+    then spread what the sum misses over the outputs that have room.
+    """
+    out = [min(max(f, p.fraction_min), p.fraction_max) for f, p in
+           zip(fractions, ports, strict=True)]
+    miss = 1.0 - sum(out)
+    for i, port in enumerate(ports):
+        room = (port.fraction_max - out[i]) if miss > 0 else (port.fraction_min - out[i])
+        step = min(miss, room) if miss > 0 else max(miss, room)
+        out[i] += step
+        miss -= step
+    return out
+
+
 def propagate(network: Network, source_w: dict[str, float],
               lp_link_w: list[float], lp_share_w: dict[tuple[str, str | None], float]) -> Flows:
     """Push source outputs through the network with the LP's settings.
@@ -252,8 +269,8 @@ def propagate(network: Network, source_w: dict[str, float],
         elif b is Behaviour.SPLIT:
             shares = [max(lp_share_w[(node.id, p.name)], 0.0) for p in node.ports]
             total = sum(shares)
-            fractions = ([s / total for s in shares] if total > IDLE_W
-                         else _idle_fractions(node.ports))
+            fractions = (_within_bounds([s / total for s in shares], node.ports)
+                         if total > IDLE_W else _idle_fractions(node.ports))
             settings[node.id] = tuple((str(p.name), f)
                                       for p, f in zip(node.ports, fractions, strict=True))
             lost = 0.0
