@@ -24,7 +24,7 @@ from beamplan.report.diagram import PALETTE, diagram_picture
 from beamplan.report.plots import Picture, headroom_chart, losses_chart
 from beamplan.units import format_power
 
-__all__ = ["CSS", "FAMILIES", "facts", "figure", "inline_svg", "pct", "plan_html", "table"]
+__all__ = ["CSS", "FAMILIES", "facts", "figure", "inline_svg", "page", "pct", "plan_html", "table"]
 
 #: What each family of binding constraint means, in words.
 FAMILIES = {
@@ -206,6 +206,36 @@ def figure(svg: str, caption: str, css: str) -> str:
             "</figure>")
 
 
+def page(title: str, heading: str, status: str, sections: Sequence[tuple[str, str]],
+         body: dict[str, str], footer: str, extra_css: str = "") -> str:
+    """The page around the sections: head, header with the caution, contents, footer."""
+    parts = "\n".join(f'<section id="{key}">\n<h2>{escape(name)}</h2>\n{body[key]}\n'
+                      "</section>" for key, name in sections)
+    toc = "".join(f'<li><a href="#{key}">{escape(name)}</a></li>' for key, name in sections)
+    return f"""<!DOCTYPE html>
+<html lang="en">
+<head>
+<meta charset="utf-8">
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<title>{escape(title)}</title>
+<style>{CSS}{extra_css}</style>
+</head>
+<body>
+<header>
+<h1>{escape(heading)}</h1>
+<p class="status">{escape(status)}</p>
+<p class="caution" role="note"><strong>Caution.</strong> {escape(CAUTION)}</p>
+</header>
+<nav aria-label="contents"><ol>{toc}</ol></nav>
+<main>
+{parts}
+</main>
+<footer><p>{escape(footer)} {escape(CAUTION)}</p></footer>
+</body>
+</html>
+"""
+
+
 def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
               date: datetime.date | str | None = None, group_chains: bool = False) -> str:
     """The whole plan report as the text of one self-contained HTML file.
@@ -282,30 +312,9 @@ def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
         if plan.warnings else "<p>The layout check gave no warnings.</p>",
         "provenance": facts(provenance),
     }
-    sections = "\n".join(f'<section id="{key}">\n<h2>{escape(title)}</h2>\n{body[key]}\n'
-                         "</section>" for key, title in _SECTIONS)
-    toc = "".join(f'<li><a href="#{key}">{escape(title)}</a></li>' for key, title in _SECTIONS)
-    return f"""<!DOCTYPE html>
-<html lang="en">
-<head>
-<meta charset="utf-8">
-<meta name="viewport" content="width=device-width, initial-scale=1">
-<title>{escape(f"beamplan: {plan.layout}, goal {plan.goal}, {plan.status}")}</title>
-<style>{CSS}</style>
-</head>
-<body>
-<header>
-<h1>{escape(f"Plan for {plan.layout}")}</h1>
-<p class="status">{escape(status)}: {escape(format_power(plan.delivered_w))} delivered of \
-{escape(format_power(plan.source_used_w))} drawn, goal {escape(plan.goal)}, {escape(when)}</p>
-<p class="caution" role="note"><strong>Caution.</strong> {escape(CAUTION)}</p>
-</header>
-<nav aria-label="contents"><ol>{toc}</ol></nav>
-<main>
-{sections}
-</main>
-<footer><p>{escape(f"beamplan {version}; layout {os.path.basename(layout_path)} "
-                   f"(SHA-256 {plan.sha256}); {when}.")} {escape(CAUTION)}</p></footer>
-</body>
-</html>
-"""
+    heading_status = (f"{status}: {format_power(plan.delivered_w)} delivered of "
+                      f"{format_power(plan.source_used_w)} drawn, goal {plan.goal}, {when}")
+    footer = (f"beamplan {version}; layout {os.path.basename(layout_path)} "
+              f"(SHA-256 {plan.sha256}); {when}.")
+    return page(f"beamplan: {plan.layout}, goal {plan.goal}, {plan.status}",
+                f"Plan for {plan.layout}", heading_status, _SECTIONS, body, footer)

@@ -19,8 +19,7 @@ from beamplan.analyses.compare import CaseOutcome, Comparison
 from beamplan.analyses.outages import SweepReport
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan, ScannerResult
-from beamplan.report import CAUTION
-from beamplan.report.html import CSS, facts, figure, inline_svg, pct, table
+from beamplan.report.html import facts, figure, inline_svg, page, pct, table
 from beamplan.report.plots import headroom_across_cases, outage_impact
 from beamplan.units import format_power
 
@@ -73,36 +72,6 @@ def _short(plan: Plan) -> str:
     short = [s for s in plan.scanners if s.status in ("short", "cut off")]
     return ", ".join(f"{s.id} {s.status} −{format_power(s.shortfall_w)}" for s in short) \
         or "none"
-
-
-def _page(title: str, heading: str, status: str, sections: Sequence[tuple[str, str]],
-          body: dict[str, str], footer: str) -> str:
-    """The page around the sections: head, header with the caution, contents, footer."""
-    parts = "\n".join(f'<section id="{key}">\n<h2>{escape(name)}</h2>\n{body[key]}\n'
-                      "</section>" for key, name in sections)
-    toc = "".join(f'<li><a href="#{key}">{escape(name)}</a></li>' for key, name in sections)
-    return f"""<!DOCTYPE html>
-<html lang="en">
-<head>
-<meta charset="utf-8">
-<meta name="viewport" content="width=device-width, initial-scale=1">
-<title>{escape(title)}</title>
-<style>{CSS}{_MORE_CSS}</style>
-</head>
-<body>
-<header>
-<h1>{escape(heading)}</h1>
-<p class="status">{escape(status)}</p>
-<p class="caution" role="note"><strong>Caution.</strong> {escape(CAUTION)}</p>
-</header>
-<nav aria-label="contents"><ol>{toc}</ol></nav>
-<main>
-{parts}
-</main>
-<footer><p>{escape(footer)} {escape(CAUTION)}</p></footer>
-</body>
-</html>
-"""
 
 
 def _provenance(layout_path: str, base: Plan, version: str, when: str,
@@ -253,10 +222,11 @@ def cases_html(comparison: Comparison, *, layout_path: str, cases_path: str | No
                         "the case drops the scanner or takes it out of service.", "plot"),
         "provenance": facts(_provenance(layout_path, base, version, when, files)),
     }
-    return _page(f"beamplan: what-if cases for {comparison.layout}, goal {comparison.goal}",
+    return page(f"beamplan: what-if cases for {comparison.layout}, goal {comparison.goal}",
                  f"What-if cases for {comparison.layout}", f"{status}; {when}",
                  _CASE_SECTIONS, body, f"beamplan {version}; layout "
-                 f"{os.path.basename(layout_path)} (SHA-256 {base.sha256}); {when}.")
+                 f"{os.path.basename(layout_path)} (SHA-256 {base.sha256}); {when}.",
+                 _MORE_CSS)
 
 
 # -- outage sweeps ----------------------------------------------------------------
@@ -371,7 +341,7 @@ def sweep_html(report: SweepReport, network: Network, *, layout_path: str, versi
         "base": _base_table(base),
         "provenance": facts(_provenance(layout_path, base, version, when)),
     }
-    return _page(f"beamplan: outage sweep of {report.layout}, goal {report.goal}",
+    return page(f"beamplan: outage sweep of {report.layout}, goal {report.goal}",
                  f"Outage sweep of {report.layout}", f"{status}; {when}", _SWEEP_SECTIONS,
                  body, f"beamplan {version}; layout {os.path.basename(layout_path)} "
-                 f"(SHA-256 {base.sha256}); {when}.")
+                 f"(SHA-256 {base.sha256}); {when}.", _MORE_CSS)
