@@ -158,7 +158,7 @@ def _sweep(args: argparse.Namespace) -> int:
             else "spawn"
         executor = ProcessPoolExecutor(jobs, mp_context=multiprocessing.get_context(method))
     try:
-        with progress_bar("outage cases") as step:
+        with progress_bar("outage cases", sys.stderr) as step:
             report = run_sweep(network, cases, goal=args.goal, solver=args.solver,
                                executor=executor, progress=step, exact=args.exact)
     finally:

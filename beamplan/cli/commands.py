@@ -16,9 +16,9 @@ GOALS = ("headroom", "min-source", "priority")
 
 
 def _console(stream: Any = None) -> Any:
-    from rich.console import Console
+    from beamplan.report.console import make_console
 
-    return Console(file=stream or sys.stdout, highlight=False)
+    return make_console(stream or sys.stdout)
 
 
 def _existing_file(path: str) -> str:

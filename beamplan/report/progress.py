@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import contextlib
-import sys
 import time
 from collections.abc import Callable, Iterator
 from typing import Any
@@ -12,7 +11,7 @@ __all__ = ["progress_bar"]
 
 
 @contextlib.contextmanager
-def progress_bar(label: str, stream: Any = None) -> Iterator[Callable[[int, int], None]]:
+def progress_bar(label: str, stream: Any) -> Iterator[Callable[[int, int], None]]:
     """Yield a ``(done, total)`` callback that draws a bar once a second has passed.
 
     On a non-terminal stream the callback does nothing, so logs stay clean.
@@ -23,7 +22,7 @@ def progress_bar(label: str, stream: Any = None) -> Iterator[Callable[[int, int]
     >>> with progress_bar("cases", io.StringIO()) as step:
     ...     step(1, 2)
     """
-    out = stream or sys.stderr
+    out = stream
     if not getattr(out, "isatty", lambda: False)():
         yield lambda done, total: None
         return
