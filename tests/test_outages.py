@@ -9,8 +9,8 @@ from hypothesis import HealthCheck, given, settings
 
 import beamplan
 from beamplan.analyses.outages import outage_cases, run_sweep
-from beamplan.analyses.spof import single_points_of_failure
 from beamplan.layout.loader import load_layout
+from beamplan.network.dominators import single_points_of_failure
 from beamplan.network.graph import build_network
 from beamplan.optimise.live import LiveModel
 from tests.conftest import layout_from_text

@@ -13,7 +13,7 @@ from collections.abc import Callable, Iterable, Sequence
 from concurrent.futures import Executor, Future
 from dataclasses import dataclass, field
 
-from beamplan.analyses.spof import single_points_of_failure
+from beamplan.network.dominators import single_points_of_failure
 from beamplan.network.graph import Network
 from beamplan.optimise.live import CaseSummary, LiveModel
 from beamplan.optimise.planner import MET_RTOL

@@ -128,6 +128,8 @@ class Network:
         for name in ("in_links", "out_link"):
             other.__dict__[name] = getattr(self, name)
         other.__dict__["node"] = {**self.node, **changed}
+        for name in ("sources", "scanners", "elements"):
+            other.__dict__[name] = tuple(changed.get(n.id, n) for n in getattr(self, name))
         return other
 
     def path_gain(self, scanner_id: str) -> float:

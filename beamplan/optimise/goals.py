@@ -245,8 +245,11 @@ def _screen(d: _Driver) -> GoalOutcome:
             d.demand_fixed(sid, best)
         d.first_frozen = active
     d.factor_bounds(0.0, 0.0)
-    costs = {d.m.link_col[link.index]: -1.0 for sid in active
-             for link in d.m.network.in_links[sid]}
+    costs: dict[int, float] = {}
+    for sid in active:
+        for link in d.m.network.in_links[sid]:
+            col = d.m.link_col[link.index]
+            costs[col] = costs.get(col, 0.0) - d.m.link_coef[link.index]
     d.objective(costs)
     final = d.solve()
     first = d.first or final

@@ -49,6 +49,7 @@ class LpModel:
     rows: list[Any] = field(default_factory=list)
     row_info: list[Row] = field(default_factory=list)
     link_col: dict[int, int] = field(default_factory=dict)
+    link_coef: dict[int, float] = field(default_factory=dict)
     source_col: dict[str, int] = field(default_factory=dict)
     share_col: dict[tuple[str, str | None], int] = field(default_factory=dict)
     shortfall_col: dict[str, int] = field(default_factory=dict)
@@ -77,10 +78,18 @@ class LpModel:
         """The pulp variable of a column."""
         return self.columns[col]
 
+    def link_expr(self, index: int) -> Any:
+        """The power on a link: its column times its coefficient (see _link_columns)."""
+        return self.link_coef[index] * self.columns[self.link_col[index]]
+
+    def link_value(self, index: int, columns: Any) -> float:
+        """The power on a link in a solution's column values."""
+        return self.link_coef[index] * float(columns[self.link_col[index]])
+
     def inflow(self, node_id: str) -> Any:
         """The expression for the power entering a node."""
         links = self.network.in_links[node_id]
-        return pulp.lpSum(self.columns[self.link_col[link.index]] for link in links)
+        return pulp.lpSum(self.link_expr(link.index) for link in links)
 
 
 def _tag(index: int) -> str:
@@ -88,8 +97,25 @@ def _tag(index: int) -> str:
 
 
 def _link_columns(m: LpModel) -> None:
-    for link in m.network.links:
-        m.link_col[link.index] = m.add_column(f"x{_tag(link.index)}")
+    """A column per link, except after a fixed-gain element: chains are contracted.
+
+    The link out of a GAIN element (mirror, drift, fixed attenuator) carries
+    g × its input, so it is written as g × (the input's column) and needs
+    neither a column nor a balance row: a chain of plain optics costs one
+    column, plus one row per heat limit.
+    """
+    for node in m.network.nodes:
+        for port in node.ports:
+            link = m.network.out_link.get((node.id, port.name))
+            if link is None:
+                continue
+            if node.behaviour is Behaviour.GAIN:
+                [into] = m.network.in_links[node.id]
+                m.link_col[link.index] = m.link_col[into.index]
+                m.link_coef[link.index] = m.link_coef[into.index] * node.gain_max
+            else:
+                m.link_col[link.index] = m.add_column(f"x{_tag(link.index)}")
+                m.link_coef[link.index] = 1.0
 
 
 def _source_columns(m: LpModel) -> None:
@@ -97,23 +123,21 @@ def _source_columns(m: LpModel) -> None:
         col = m.add_column(f"p{_tag(i)}", 0.0, None)
         m.source_col[node.id] = col
         out = m.network.out_link.get((node.id, None))
-        flow = m.var(m.link_col[out.index]) if out is not None else 0
+        flow = m.link_expr(out.index) if out is not None else 0
         m.add_row(flow - m.var(col) == 0, Row(f"src{_tag(i)}", "source", node.id))
         m.available_row[node.id] = m.add_row(m.var(col) <= node.available_w,
                                              Row(f"avl{_tag(i)}", "available", node.id))
 
 
 def _out_var(m: LpModel, node: Node, port: str | None) -> Any:
-    return m.var(m.link_col[m.network.out_link[(node.id, port)].index])
+    return m.link_expr(m.network.out_link[(node.id, port)].index)
 
 
 def _element_rows(m: LpModel, i: int, node: Node) -> Any:
     """Balance rows of one element; return its absorbed-power expression."""
     inflow = m.inflow(node.id)
     tag = _tag(i)
-    if node.behaviour is Behaviour.GAIN:
-        out = _out_var(m, node, None)
-        m.add_row(out - node.gain_max * inflow == 0, Row(f"bal{tag}", "balance", node.id))
+    if node.behaviour is Behaviour.GAIN:  # contracted: out = g × in by construction
         return (1.0 - node.gain_max) * inflow
     if node.behaviour is Behaviour.RANGE:
         out = _out_var(m, node, None)

@@ -106,7 +106,7 @@ def finish_plan(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: st
     network = model.network
     cols = outcome.solution.columns
     source_w = {sid: float(cols[col]) for sid, col in model.source_col.items()}
-    lp_link = [float(cols[model.link_col[link.index]]) for link in network.links]
+    lp_link = [model.link_value(link.index, cols) for link in network.links]
     lp_share = {key: float(cols[col]) for key, col in model.share_col.items()}
     flows = propagate(network, source_w, lp_link, lp_share)
     standby = network.standby_sources

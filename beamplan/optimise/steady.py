@@ -43,7 +43,7 @@ def _deviation_rows(model: LpModel, base: Mapping[str, Setting]) -> list[int]:
             for name, fraction in setting:
                 pairs.append((name, model.var(model.share_col[(node.id, name)]), fraction))
         elif node.behaviour is Behaviour.RANGE and isinstance(setting, float):
-            out = model.var(model.link_col[net.out_link[(node.id, None)].index])
+            out = model.link_expr(net.out_link[(node.id, None)].index)
             pairs.append((None, out, setting))
         for k, (port, var, ratio) in enumerate(pairs):
             col = model.add_column(f"zdev{i:05d}_{k:02d}")
