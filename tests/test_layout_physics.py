@@ -145,3 +145,19 @@ def test_physics_mistakes_are_located_errors(elements: str, scanners: str, sourc
     messages = [d.format() for d in info.value.errors]
     assert any(fragment in m for m in messages), messages
     assert all(m.startswith("test.yaml:") for m in messages), messages
+
+
+def test_scanner_train_mirrors_from_a_computed_multilayer() -> None:
+    # Reference: the Parratt multilayer of beamplan.physics.multilayer at the
+    # layout wavelength, fed to the throughput model as the train's reflectivity.
+    scanners = ("  s1: {dose: 30 mJ/cm^2, wph: 100, mirror_multilayer: {pair: Mo/Si, "
+                "period: 6.9 nm, bilayers: 50}, mirror_incidence: 5 deg}")
+    net = network_from_text(text("  m1: {kind: mirror, reflectivity: 0.9}", scanners))
+    r = multilayer_reflectivity(("Mo", "Si"), 6.9e-9, 0.4, 50, math.radians(5), 13.5e-9)
+    tool = ScannerTool(mirror_reflectivity=r.reflectivity)
+    assert net.node["s1"].need_w == pytest.approx(
+        required_if_power(tool, 300.0, 100.0).if_power_w, rel=1e-12)
+    both = ("  s1: {dose: 30 mJ/cm^2, wph: 100, mirror_reflectivity: 0.7, "
+            "mirror_multilayer: {pair: Mo/Si}}")
+    with pytest.raises(LayoutError, match="not both"):
+        network_from_text(text("  m1: {kind: mirror, reflectivity: 0.9}", both))

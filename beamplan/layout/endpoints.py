@@ -7,6 +7,7 @@ from __future__ import annotations
 from typing import Any
 
 from beamplan.errors import did_you_mean
+from beamplan.layout.kinds import read_multilayer
 from beamplan.layout.model import DemandSpec, ScannerSpec, SourceSpec, UndulatorSpec
 from beamplan.layout.reader import ID_PATTERN, MISSING, Context, MapReader
 from beamplan.layout.yamlpos import Path
@@ -131,7 +132,7 @@ def _merged(ctx: Context, settings: dict[str, Any], path: Path, profiles: dict[s
 def _demand(r: MapReader, profile: str | None) -> DemandSpec | None:
     if not (r.has("dose") or r.has("wph")):
         for key in (*TOOL_KEYS, "critical_area", "resist_absorption", "resist_thickness",
-                    "noise"):
+                    "noise", "mirror_multilayer", "mirror_incidence"):
             r.asked.add(key)  # allowed keys, unused without a dose
         return None
     if r.has("dose") and isinstance(r.data["dose"], (int, float)):
@@ -152,6 +153,14 @@ def _demand(r: MapReader, profile: str | None) -> DemandSpec | None:
         value = r.quantity(key, dimension, minimum=0.0)
         if value is not None:
             tool.append((name, value))
+    train = read_multilayer(r, "mirror_multilayer")
+    incidence = r.quantity("mirror_incidence", "angle", default=0.0, minimum=0.0,
+                           maximum=1.5)
+    if train is not None and any(name == "mirror_reflectivity" for name, _ in tool):
+        r.ctx.error("bad-value", f"{r.subject}: give 'mirror_reflectivity' or "
+                    "'mirror_multilayer', not both", r.key_loc("mirror_multilayer"),
+                    "a computed multilayer replaces the fixed value")
+        return None
     area = r.quantity("critical_area", "area", minimum=0.0, strict_minimum=True)
     alpha = r.quantity("resist_absorption", "absorption", minimum=0.0, strict_minimum=True)
     thickness = r.quantity("resist_thickness", "length", minimum=0.0, strict_minimum=True)
@@ -164,7 +173,10 @@ def _demand(r: MapReader, profile: str | None) -> DemandSpec | None:
         return None
     if dose is None or wph is None:
         return None
-    return DemandSpec(dose, wph, tuple(tool), area, alpha, thickness, noise, profile)
+    return DemandSpec(dose, wph, tuple(tool), train_multilayer=train,
+                      train_incidence_rad=incidence or 0.0, critical_area_m2=area,
+                      resist_absorption_per_m=alpha, resist_thickness_m=thickness, noise=noise,
+                      profile=profile)
 
 
 def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any]

@@ -57,10 +57,11 @@ def _coating(r: MapReader) -> CoatingSpec | None:
     return CoatingSpec(material, density, delta, beta) if material else None
 
 
-def _multilayer(r: MapReader) -> MultilayerSpec | None:
-    if r.mapping("multilayer") is None:
+def read_multilayer(r: MapReader, key: str = "multilayer") -> MultilayerSpec | None:
+    """Read a multilayer stack given under ``key`` (see docs/layout-format.md)."""
+    if r.mapping(key) is None:
         return None
-    sub = r.sub("multilayer", f"{r.subject} multilayer")
+    sub = r.sub(key, f"{r.subject} {key}")
     pair = sub.text("pair", default="Mo/Si")
     absorber, _, spacer = pair.partition("/")
     if not absorber.strip() or not spacer.strip():
@@ -88,7 +89,7 @@ def _mirror(r: MapReader, common: Common) -> ElementSpec | None:
     coating = _coating(r)
     grazing = r.quantity("grazing", "angle", minimum=0.0, strict_minimum=True,
                          maximum=math.pi / 2)
-    multilayer = _multilayer(r)
+    multilayer = read_multilayer(r)
     incidence = r.quantity("incidence", "angle", minimum=0.0, maximum=math.pi / 2)
     roughness = r.quantity("roughness", "length", default=0.0, minimum=0.0)
     plane = r.quantity("plane", "angle", default=0.0)

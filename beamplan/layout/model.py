@@ -241,6 +241,8 @@ class DemandSpec:
     dose_j_m2: float
     wafers_per_hour: float
     tool: tuple[tuple[str, float], ...] = ()
+    train_multilayer: MultilayerSpec | None = None  # computes the IF-to-wafer mirrors' R
+    train_incidence_rad: float = 0.0
     critical_area_m2: float | None = None
     resist_absorption_per_m: float | None = None
     resist_thickness_m: float | None = None

@@ -136,6 +136,15 @@ def scanner_demand(spec: DemandSpec, wavelength_m: float) -> ScannerDemand:
 
     fields = {name: (int(value) if name in ("fields_per_wafer", "mirror_reflections")
                      else value) for name, value in spec.tool}
+    if spec.train_multilayer is not None:
+        from beamplan.physics.multilayer import multilayer_reflectivity
+
+        ml = spec.train_multilayer
+        capping = (ml.capping, ml.capping_m) if ml.capping else None
+        fields["mirror_reflectivity"] = multilayer_reflectivity(
+            (ml.absorber, ml.spacer), ml.period_m, ml.gamma, ml.bilayers,
+            spec.train_incidence_rad, wavelength_m, capping=capping, substrate=ml.substrate,
+            roughness_m=ml.roughness_m).reflectivity
     tool = ScannerTool(**fields)  # type: ignore[arg-type]
     dose, set_by = spec.dose_j_m2, "recipe"
     if spec.critical_area_m2 is not None:
