@@ -122,7 +122,12 @@ def main() -> None:
     # 1. The whole sweep, as a user runs it.
     start = time.perf_counter()
     if args.jobs > 1:
-        with ProcessPoolExecutor(args.jobs) as pool:
+        import multiprocessing
+
+        method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() \
+            else "spawn"  # as the command line does
+        with ProcessPoolExecutor(args.jobs, mp_context=multiprocessing.get_context(method)) \
+                as pool:
             report = run_sweep(network, cases, executor=pool)
     else:
         report = run_sweep(network, cases)
