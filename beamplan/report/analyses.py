@@ -142,9 +142,15 @@ def sweep_renderable(report: SweepReport, top: int = 20) -> Group:
     spof = titled_table("Single points of failure (dominators in the beam graph)")
     spof.add_column("node")
     spof.add_column("scanners it cuts off", overflow="fold")
-    for node, scanners in report.single_points.items():
-        spof.add_row(node, ", ".join(scanners))
+    ranked = sorted(report.single_points.items(), key=lambda kv: (-len(kv[1]), kv[0]))
+    for node, scanners in ranked[:top]:
+        shown = ", ".join(scanners[:6]) + (f" ... ({len(scanners)} in all)"
+                                           if len(scanners) > 6 else "")
+        spof.add_row(node, shown)
     parts += [Text(""), spof]
+    if len(ranked) > top:
+        parts.append(Text(f"... {len(ranked) - top} more single points of failure in the "
+                          "JSON/CSV output"))
     if report.disagreements:
         parts.append(Text("dominators and re-plans disagree: " +
                           "; ".join(report.disagreements), style="bold red"))
