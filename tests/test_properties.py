@@ -37,7 +37,7 @@ CONSERVATION_RTOL = 1e-9
 LIMIT_RTOL = 1e-6
 FACTOR_RTOL = 1e-7
 
-PROPERTY = settings(max_examples=15, deadline=None,
+PROPERTY = settings(max_examples=40, deadline=None,
                     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
 
 
