@@ -440,7 +440,7 @@ def test_seeded_random_layouts(seed: int) -> None:
     check_levels(net, "highs", 1e-6)
 
 
-# -- bugs these tests found: regressions (fixed) and one still open -----------------------
+# -- bugs these tests found, now fixed: regression tests ---------------------------------
 
 # Regression. Found by test_random_levels and shrunk: scanners get 10 mW to 5 W
 # (litho-04 gets 0.0116 W). At 66934e6, stage 1 froze litho-04 at t = 6.844e-5,
