@@ -110,15 +110,10 @@ def _outputs(args: argparse.Namespace, what: str, result: Any,
         else:
             write_atomic(args.json, text, inputs)
     if args.csv:
-        tables = rep.cases_csv(result) if what == "cases" else rep.sweep_csv(result)
-        try:
-            os.makedirs(args.csv, exist_ok=True)
-        except OSError as exc:
-            from beamplan.errors import OutputError
+        from beamplan.report.files import write_tables
 
-            raise OutputError(f"cannot create the folder {args.csv!r}: {exc.strerror}") from exc
-        for name, text in tables.items():
-            write_atomic(os.path.join(args.csv, name), text, inputs)
+        tables = rep.cases_csv(result) if what == "cases" else rep.sweep_csv(result)
+        write_tables(args.csv, tables, inputs)
     if args.html:
         from beamplan.report.html_analyses import cases_html, sweep_html
 

@@ -17,6 +17,7 @@ from beamplan.layout.model import (
     DemandSpec,
     DriftSpec,
     MirrorSpec,
+    MultilayerSpec,
     SourceSpec,
 )
 
@@ -61,19 +62,25 @@ def mirror_gain(spec: MirrorSpec, wavelength_m: float, s_polarisation: float
             f"Fresnel with Névot–Croce ({source})")
     ml = spec.multilayer
     assert ml is not None and spec.incidence_rad is not None
-    from beamplan.physics.multilayer import multilayer_reflectivity
-
-    capping = (ml.capping, ml.capping_m) if ml.capping else None
-    stack = multilayer_reflectivity((ml.absorber, ml.spacer), ml.period_m, ml.gamma,
-                                    ml.bilayers, spec.incidence_rad, wavelength_m,
-                                    capping=capping, substrate=ml.substrate,
-                                    roughness_m=ml.roughness_m or spec.roughness_m,
-                                    polarisation=s_polarisation)
+    reflectivity = _stack(ml, spec.incidence_rad, wavelength_m, s_polarisation,
+                          ml.roughness_m or spec.roughness_m)
     cap = f", {ml.capping} cap" if ml.capping else ""
-    return stack.reflectivity, (
+    return reflectivity, (
         f"{ml.absorber}/{ml.spacer} × {ml.bilayers}, period {ml.period_m * 1e9:.2f} nm{cap}, "
         f"{math.degrees(spec.incidence_rad):.1f} deg incidence{pol}: Parratt recursion "
         "(Henke tables)")
+
+
+def _stack(ml: MultilayerSpec, incidence_rad: float, wavelength_m: float,
+           s_polarisation: float, roughness_m: float) -> float:
+    """A multilayer spec's reflectivity (Parratt recursion, Henke tables)."""
+    from beamplan.physics.multilayer import multilayer_reflectivity
+
+    capping = (ml.capping, ml.capping_m) if ml.capping else None
+    return multilayer_reflectivity((ml.absorber, ml.spacer), ml.period_m, ml.gamma,
+                                   ml.bilayers, incidence_rad, wavelength_m, capping=capping,
+                                   substrate=ml.substrate, roughness_m=roughness_m,
+                                   polarisation=s_polarisation).reflectivity
 
 
 def drift_transmission(spec: DriftSpec, wavelength_m: float) -> tuple[float, str]:
@@ -137,14 +144,9 @@ def scanner_demand(spec: DemandSpec, wavelength_m: float) -> ScannerDemand:
     fields = {name: (int(value) if name in ("fields_per_wafer", "mirror_reflections")
                      else value) for name, value in spec.tool}
     if spec.train_multilayer is not None:
-        from beamplan.physics.multilayer import multilayer_reflectivity
-
         ml = spec.train_multilayer
-        capping = (ml.capping, ml.capping_m) if ml.capping else None
-        fields["mirror_reflectivity"] = multilayer_reflectivity(
-            (ml.absorber, ml.spacer), ml.period_m, ml.gamma, ml.bilayers,
-            spec.train_incidence_rad, wavelength_m, capping=capping, substrate=ml.substrate,
-            roughness_m=ml.roughness_m).reflectivity
+        fields["mirror_reflectivity"] = _stack(ml, spec.train_incidence_rad, wavelength_m, 0.0,
+                                               ml.roughness_m)
     tool = ScannerTool(**fields)  # type: ignore[arg-type]
     dose, set_by = spec.dose_j_m2, "recipe"
     if spec.critical_area_m2 is not None:

@@ -10,13 +10,12 @@ from __future__ import annotations
 import csv
 import io
 import json
-import os
 from collections.abc import Iterable
 from typing import Any
 
 from beamplan.optimise.result import Plan
 from beamplan.report import CAUTION
-from beamplan.report.files import write_atomic
+from beamplan.report.files import write_tables
 
 __all__ = ["PLAN_FORMAT", "csv_tables", "plan_document", "plan_json", "write_csv"]
 
@@ -149,15 +148,4 @@ def csv_tables(plan: Plan) -> dict[str, str]:
 
 def write_csv(plan: Plan, folder: str, inputs: Iterable[str] = ()) -> list[str]:
     """Write the CSV tables into ``folder`` (created if needed); return the paths."""
-    from beamplan.errors import OutputError
-
-    try:
-        os.makedirs(folder, exist_ok=True)
-    except OSError as exc:
-        raise OutputError(f"cannot create the folder {folder!r}: {exc.strerror}") from exc
-    written = []
-    for name, text in csv_tables(plan).items():
-        path = os.path.join(folder, name)
-        write_atomic(path, text, inputs)
-        written.append(path)
-    return written
+    return write_tables(folder, csv_tables(plan), inputs)

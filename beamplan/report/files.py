@@ -9,7 +9,7 @@ from collections.abc import Iterable
 
 from beamplan.errors import OutputError, UsageError
 
-__all__ = ["refuse_inputs", "write_atomic"]
+__all__ = ["refuse_inputs", "write_atomic", "write_tables"]
 
 
 def _same_file(a: str, b: str) -> bool:
@@ -87,3 +87,25 @@ def write_atomic(path: str, text: str | bytes, inputs: Iterable[str] = ()) -> No
         with contextlib.suppress(OSError):
             os.unlink(temp)
         raise OutputError(f"cannot write {path!r}: {exc.strerror or exc}") from exc
+
+
+def write_tables(folder: str, tables: dict[str, str], inputs: Iterable[str] = ()) -> list[str]:
+    """Write named texts (CSV tables) into ``folder``, created if needed; return the paths.
+
+    Examples
+    --------
+    >>> import os, tempfile
+    >>> folder = os.path.join(tempfile.mkdtemp(), "tables")
+    >>> [os.path.basename(p) for p in write_tables(folder, {"a.csv": "x\\n"})]
+    ['a.csv']
+    """
+    try:
+        os.makedirs(folder, exist_ok=True)
+    except OSError as exc:
+        raise OutputError(f"cannot create the folder {folder!r}: {exc.strerror}") from exc
+    written = []
+    for name, text in tables.items():
+        path = os.path.join(folder, name)
+        write_atomic(path, text, inputs)
+        written.append(path)
+    return written
