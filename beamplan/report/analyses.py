@@ -5,7 +5,6 @@ Documents: ``beamplan-cases/1`` and ``beamplan-outages/1`` (docs/json-format.md)
 
 from __future__ import annotations
 
-import json
 from typing import Any
 
 from rich.console import Group
@@ -16,6 +15,7 @@ from beamplan.analyses.outages import SweepReport
 from beamplan.optimise.result import Plan
 from beamplan.report import CAUTION
 from beamplan.report.document import csv_text, rounded
+from beamplan.report.document import to_json as strict_json
 from beamplan.report.terminal import titled_table
 from beamplan.units import format_power
 
@@ -195,5 +195,5 @@ def sweep_csv(report: SweepReport) -> dict[str, str]:
 
 
 def to_json(document: dict[str, Any]) -> str:
-    """Indented JSON text with a final newline."""
-    return json.dumps(document, indent=2, ensure_ascii=False) + "\n"
+    """Strict, indented JSON with a final newline (:func:`beamplan.report.document.to_json`)."""
+    return strict_json(document)
