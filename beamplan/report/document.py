@@ -26,8 +26,8 @@ PLAN_FORMAT = "beamplan-plan/1"
 POWER_RESOLUTION_W = 1e-6
 """Powers (keys ending in ``_w``) are given to 1 µW."""
 
-RATIO_RESOLUTION = 1e-9
-"""Dimensionless ratios (headroom, efficiency, gains, shares) are given to 1e-9."""
+RATIO_RESOLUTION = 1e-8
+"""Dimensionless ratios (headroom, efficiency, gains, shares) are given to 1e-8."""
 
 SIGNIFICANT_DIGITS = 9
 """Every number is also rounded to this many significant digits."""
@@ -44,7 +44,7 @@ def _decimals(key: str | None) -> int | None:
     if key.endswith("_w") or key == "power_w":
         return 6  # POWER_RESOLUTION_W
     if key in _RATIO_KEYS:
-        return 9  # RATIO_RESOLUTION
+        return 8  # RATIO_RESOLUTION
     return None
 
 
@@ -53,7 +53,7 @@ def number(value: float | None, key: str | None = None) -> float | None:
 
     Rounded to :data:`SIGNIFICANT_DIGITS` significant digits; then a power (a
     ``key`` ending in ``_w``) to 1 µW and a dimensionless ratio (headroom,
-    efficiency, gain, share) to 1e-9, so solver noise below the resolution
+    efficiency, gain, share) to 1e-8, so solver noise below the resolution
     reads 0. Negative zero becomes 0. A number that is not finite (an
     unbounded limit, a ratio to a zero need) becomes ``None`` (JSON ``null``,
     an empty CSV cell). Integers and ``None`` pass unchanged.
