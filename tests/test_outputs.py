@@ -131,9 +131,13 @@ def test_csv_set_replaces_a_previous_set_but_not_foreign_files(
     mine = tmp_path / "mine"
     mine.mkdir()
     (mine / "notes.txt").write_text("keep me\n")
-    code, _, err = run(capsys, "plan", PILOT, "--csv", str(mine), "-q")
+    code, _, err = run(capsys, "sweep", PILOT, "--csv", str(mine), "-q")
     assert code == 2 and "did not write (notes.txt)" in err
     assert os.listdir(mine) == ["notes.txt"] and _ours(tmp_path) == []
+    (mine / "notes.txt").rename(mine / "mine.csv")  # a CSV file of the user's own
+    code, _, err = run(capsys, "plan", PILOT, "--csv", str(mine), "-q")
+    assert code == 2 and "did not write (mine.csv)" in err
+    assert os.listdir(mine) == ["mine.csv"] and _ours(tmp_path) == []
 
 
 def test_csv_keeps_the_mode_of_each_table(capsys: pytest.CaptureFixture[str],
@@ -321,6 +325,9 @@ def test_dash_for_csv_and_two_outputs_to_stdout_are_usage_errors(
     assert code == 2 and "both write to stdout" in err
     code, _, err = run(capsys, "plan", PILOT, "--json", "x.out", "--html", "x.out")
     assert code == 2 and "both name 'x.out'" in err
+    code, _, err = run(capsys, "plan", PILOT, "--json", "t/x.json", "--csv", "t")
+    assert code == 2 and "lies in the --csv folder" in err
+    assert not os.path.exists("x.out") and not os.path.exists("t")
 
 
 # --- numbers ---------------------------------------------------------------------------------
@@ -405,3 +412,16 @@ def test_no_negative_zero_or_second_minus_sign_in_any_report(
     for text in texts:
         assert not NEGATIVE_ZERO.search(text), NEGATIVE_ZERO.search(text)
         assert "−" not in text  # one minus sign: ASCII
+
+
+@pytest.mark.parametrize("layout", DEMOS)
+def test_no_negative_zero_in_html_and_pictures(capsys: pytest.CaptureFixture[str],
+                                               layout: str) -> None:
+    path = f"layouts/{layout}"
+    pages = [run(capsys, "plan", path, "-g", "min-source", "--html", "-")[1],
+             run(capsys, "sweep", path, "--html", "-")[1],
+             run(capsys, "draw", path, "-g", "min-source", "-o", "-", "--format", "dot")[1]]
+    for text in pages:
+        text = re.sub(r"<[^>]*>", " ", text)  # the words shown, not the drawing data
+        assert not NEGATIVE_ZERO.search(text), NEGATIVE_ZERO.search(text)
+        assert not re.search(r"−\d", text)  # a number's sign is ASCII, as in the terminal

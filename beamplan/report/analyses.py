@@ -14,9 +14,9 @@ from beamplan.analyses.compare import Comparison
 from beamplan.analyses.outages import SweepReport
 from beamplan.optimise.result import Plan
 from beamplan.report import CAUTION
-from beamplan.report.document import csv_text, rounded
+from beamplan.report.document import csv_text, rounded, signed_percent, signed_power
 from beamplan.report.document import to_json as strict_json
-from beamplan.report.terminal import signed_percent, signed_power, titled_table
+from beamplan.report.terminal import titled_table
 from beamplan.units import format_power
 
 __all__ = ["cases_csv", "cases_document", "cases_renderable", "sweep_csv", "sweep_document",

@@ -16,9 +16,10 @@ from typing import Any
 from beamplan.optimise.result import Plan
 from beamplan.report import CAUTION
 from beamplan.report.files import write_tables
+from beamplan.units import format_power
 
-__all__ = ["PLAN_FORMAT", "csv_tables", "number", "plan_document", "plan_json", "strict", "to_json",
-           "write_csv"]
+__all__ = ["PLAN_FORMAT", "csv_tables", "number", "plan_document", "plan_json", "signed_number",
+           "signed_percent", "signed_power", "strict", "to_json", "write_csv"]
 
 PLAN_FORMAT = "beamplan-plan/1"
 
@@ -77,6 +78,43 @@ def number(value: float | None, key: str | None = None) -> float | None:
     if decimals is not None:
         result = round(result, decimals)
     return result + 0.0  # -0.0 + 0.0 is +0.0
+
+
+def signed_number(value: float, decimals: int) -> str:
+    """A number with its sign at ``decimals`` places; zero (also -0 and noise) has no sign.
+
+    The one minus sign of every report is ASCII ``-``.
+
+    Examples
+    --------
+    >>> signed_number(0.25, 2), signed_number(-3.0, 0), signed_number(-4e-9, 4)
+    ('+0.25', '-3', '0.0000')
+    """
+    text = f"{value:+.{decimals}f}"
+    return text[1:] if float(text[1:]) == 0 else text
+
+
+def signed_percent(fraction: float, decimals: int = 1) -> str:
+    """A fraction as a signed percentage, never ``-0.0%``.
+
+    Examples
+    --------
+    >>> signed_percent(0.125), signed_percent(-0.5, 0), signed_percent(-1e-12)
+    ('+12.5%', '-50%', '0.0%')
+    """
+    return signed_number(fraction * 100, decimals) + "%"
+
+
+def signed_power(power_w: float) -> str:
+    """A power change with its sign (ASCII), ``0 W`` when it rounds to nothing.
+
+    Examples
+    --------
+    >>> signed_power(12.0), signed_power(-1200.0), signed_power(-1e-9)
+    ('+12.0 W', '-1.20 kW', '0 W')
+    """
+    text = format_power(power_w)
+    return text if text.startswith(("-", "0 ")) else "+" + text
 
 
 def rounded(value: float | None) -> float | None:

@@ -93,8 +93,9 @@ def check_outputs(files: Iterable[tuple[str, str | None]],
 
     ``files`` and ``folders`` are ``(option, path)`` pairs; a ``None`` path is
     not asked for. Refused (exit 2): an output naming an input, a CSV folder
-    holding an input, ``-`` for a CSV folder, two outputs to stdout or to the
-    same path, a file output that is a folder. Failed (exit 5): a file output
+    holding an input or files beamplan did not write, ``-`` for a CSV folder,
+    two outputs to stdout or to the same path, a file output inside a CSV
+    folder, a file output that is a folder. Failed (exit 5): a file output
     whose folder does not exist.
 
     Raises
@@ -145,9 +146,15 @@ def check_outputs(files: Iterable[tuple[str, str | None]],
         if os.path.exists(path) and not os.path.isdir(path):
             raise UsageError(f"{option} {path!r} is a file, not a folder; "
                              "give a folder for the tables")
+        if os.path.isdir(path):
+            _previous_tables(path, None)
     for option, path in wanted_files:
         if path == STDOUT or _DIRECT.match(path):
             continue
+        for folder_option, folder in wanted_folders:
+            if _inside(folder, path):
+                raise UsageError(f"{option} {path!r} lies in the {folder_option} folder, which "
+                                 "is replaced as a whole; write it elsewhere")
         refuse_inputs([path], sources)
         if os.path.isdir(path):
             raise UsageError(f"{option} {path!r} is a folder; give a file name")
@@ -288,17 +295,22 @@ def write_atomic(path: str, text: str | bytes, inputs: Iterable[str] = ()) -> No
     _remove_stale(folder)
 
 
-def _previous_tables(folder: str, names: Iterable[str]) -> set[str]:
-    """The entries of an existing CSV folder, refused unless they are our tables."""
+def _previous_tables(folder: str, names: Iterable[str] | None) -> set[str]:
+    """The entries of an existing CSV folder, refused unless they are our tables.
+
+    Ours: the tables its ``.beamplan-tables`` file lists, and ``names`` (the
+    new set; ``None`` for the early check, which takes any ``*.csv`` file).
+    """
     try:
         entries = set(os.listdir(folder))
     except OSError as exc:
         raise OutputError(f"cannot read the folder {folder!r}: {_why(exc)}") from exc
-    ours = set(names) | {TABLES_MARKER}
+    ours = set(names or ()) | {TABLES_MARKER}
     with contextlib.suppress(OSError), open(os.path.join(folder, TABLES_MARKER),
                                             encoding="utf-8") as marker:
         ours |= {line.strip() for line in marker if line.strip()}
-    foreign = sorted(e for e in entries if e not in ours or
+    foreign = sorted(e for e in entries
+                     if (e not in ours and not (names is None and e.endswith(".csv"))) or
                      not os.path.isfile(os.path.join(folder, e)) or
                      os.path.islink(os.path.join(folder, e)))
     if foreign:
@@ -344,7 +356,8 @@ def write_tables(folder: str, tables: dict[str, str], inputs: Iterable[str] = ()
         os.makedirs(parent, exist_ok=True)
         new = tempfile.mkdtemp(prefix=_PREFIX, suffix=_SUFFIX, dir=parent)
     except OSError as exc:
-        raise OutputError(f"cannot write the folder {folder!r}: {_why(exc)}") from exc
+        raise OutputError(f"cannot write the folder {folder!r}: {_why(exc)} (the tables are "
+                          f"written beside it, in {parent!r}, then renamed into place)") from exc
     aside: str | None = None
     try:
         mask = _umask()

@@ -18,37 +18,12 @@ from beamplan.errors import Diagnostic
 from beamplan.network.behaviour import GIVEN
 from beamplan.optimise.result import ElementResult, Plan
 from beamplan.report import CAUTION
+from beamplan.report.document import signed_percent, signed_power
 from beamplan.units import format_power
 
 __all__ = ["diagnostics_text", "plan_renderable", "signed_percent", "signed_power"]
 
 _STATUS_STYLE = {"met": "green", "short": "bold red", "cut off": "bold red"}
-
-
-def signed_percent(value: float, decimals: int = 1) -> str:
-    """A fraction as a signed percentage; zero (also -0 and noise) has no sign.
-
-    The one minus sign of the terminal reports is ASCII ``-``.
-
-    Examples
-    --------
-    >>> signed_percent(0.125), signed_percent(-0.5, 0), signed_percent(-1e-12)
-    ('+12.5%', '-50%', '0.0%')
-    """
-    text = f"{value * 100:+.{decimals}f}%"
-    return text[1:] if float(text[1:-1]) == 0 else text
-
-
-def signed_power(power_w: float) -> str:
-    """A power change with its sign, ``0 W`` when it rounds to nothing.
-
-    Examples
-    --------
-    >>> signed_power(12.0), signed_power(-1200.0), signed_power(-1e-9)
-    ('+12.0 W', '-1.20 kW', '0 W')
-    """
-    text = format_power(power_w)
-    return text if text.startswith(("-", "0 ")) else "+" + text
 
 
 def _pct(value: float) -> str:
