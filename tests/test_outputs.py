@@ -213,6 +213,9 @@ def test_a_fifo_is_written_into_not_replaced(capsys: pytest.CaptureFixture[str],
     capsys.readouterr()
     assert code == 0 and stat.S_ISFIFO(fifo.lstat().st_mode)
     assert strict_loads(received[0].decode())["status"] == "met"
+    # A character device is written into, never replaced (as root, a rename would replace it).
+    assert run(capsys, "plan", PILOT, "--json", "/dev/null", "-q")[0] == 0
+    assert stat.S_ISCHR(os.lstat("/dev/null").st_mode)
 
 
 def test_dev_stdout_is_written_directly() -> None:
