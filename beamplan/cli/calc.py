@@ -37,6 +37,7 @@ INCIDENCE = A.Bounds(0.0, _PI2, "[0, 90 deg)", high_open=True)
 WAVELENGTH = A.Bounds(0.0, 1e-3, "(0, 1 mm]", low_open=True)
 ROUGHNESS = A.Bounds(0.0, 1e-6, "[0, 1 um]")
 THIN = A.Bounds(0.0, 1e-6, "(0, 1 um]", low_open=True)
+PERIOD = A.Bounds(1e-10, 1e-6, "[0.1 nm, 1 um]")
 FRACTION = A.Bounds(0.0, 1.0, "[0, 1]")
 PRESSURE = A.Bounds(0.0, 1e7, "[0, 100 bar]")
 TEMPERATURE = A.Bounds(0.0, 1e4, "(0, 10000 K]", low_open=True)
@@ -99,9 +100,16 @@ def _rows(*counts: int) -> None:
                          f"(at most {A.MAX_ROWS:,}); scan fewer values")
 
 
+#: Physics messages that name a function's parameters, said in the calculators' words.
+_SAID = (("pass density_g_cm3", "give --density FORMULA=DENSITY"),
+         ("; widen span", "; no peak within reach of the Bragg estimate at these settings"),
+         ("math domain error", "these settings have no real solution (math domain error)"))
+
+
 def _physics_message(exc: BaseException) -> str:
-    message = " ".join(str(exc).split()).replace("pass density_g_cm3",
-                                                 "give --density FORMULA=DENSITY")
+    message = " ".join(str(exc).split())
+    for said, meant in _SAID:
+        message = message.replace(said, meant)
     return message if len(message) <= 300 else message[:300] + "…"
 
 
@@ -201,7 +209,7 @@ def _stack(args: argparse.Namespace) -> int:
         raise UsageError(f"--pair: expected ABSORBER/SPACER such as Mo/Si, got "
                          f"{A.excerpt(pair_text)}")
     pair = (A.formula(absorber.strip(), "--pair"), A.formula(spacer.strip(), "--pair"))
-    period = A.quantity(r.need("period", "6.9nm"), "length", "--period", THIN)
+    period = A.quantity(r.need("period", "6.9nm"), "length", "--period", PERIOD)
     fraction = A.quantity(r.need("absorber-fraction", "0.4"), "fraction", "--absorber-fraction",
                           FRACTION)
     periods = A.count(r.need("periods", "50"), "--periods", 1, MAX_PERIODS)

@@ -127,7 +127,8 @@ def quantity(text: str, dimension: str, option: str, bounds: Bounds | None = Non
     """
     from beamplan.units import DIMENSIONS, UnitError, parse_quantity
 
-    text = screen(text, option)
+    shown = screen(text, option)
+    text = shown
     if _BARE_NUMBER.match(text) and dimension != "fraction":
         if plain_unit is None:
             raise UsageError(f"{option}: {excerpt(text)} has no unit; write e.g. "
@@ -138,10 +139,12 @@ def quantity(text: str, dimension: str, option: str, bounds: Bounds | None = Non
         value = parse_quantity(text, dimension)
     except UnitError as exc:
         hint = f"; {exc.hint}" if exc.hint else ""
-        raise UsageError(f"{option}: cannot read {excerpt(text)} as "
-                         f"{'an' if dimension[0] in 'aeiou' else 'a'} {dimension}{hint}") from exc
+        said = exc.message if len(shown) <= 40 else (
+            f"cannot read {excerpt(shown)} as {'an' if dimension[0] in 'aeiou' else 'a'} "
+            f"{dimension}")
+        raise UsageError(f"{option}: {said}{hint}") from exc
     if bounds is not None and not bounds.holds(value):
-        raise UsageError(f"{option}: {excerpt(text)} is out of range; give a value in "
+        raise UsageError(f"{option}: {excerpt(shown)} is out of range; give a value in "
                          f"{bounds.shown}")
     return value
 

@@ -17,9 +17,9 @@ __all__ = ["add_demand", "add_undulator"]
 
 _SIZE = A.Bounds(0.0, 1.0, "(0, 1 m]", low_open=True)
 _TIME = A.Bounds(0.0, 1e5, "[0, 100000 s]")
-_SPEED = A.Bounds(0.0, 100.0, "(0, 100 m/s]", low_open=True)
-_DOSE = A.Bounds(0.0, 1e5, "(0, 10 J/cm^2]", low_open=True)
-_WPH = A.Bounds(0.0, 1e4, "(0, 10000 wph]", low_open=True)
+_SPEED = A.Bounds(1e-3, 100.0, "[1 mm/s, 100 m/s]")
+_DOSE = A.Bounds(0.1, 1e5, "[0.01 mJ/cm^2, 10 J/cm^2]")
+_WPH = A.Bounds(0.01, 1e4, "[0.01, 10000] wph")
 _POWER = A.Bounds(0.0, 1e7, "[0, 10 MW]")
 _WAVELENGTH = A.Bounds(0.0, 1.0, "(0, 1 m]", low_open=True)
 
@@ -131,12 +131,12 @@ def _undulator(args: argparse.Namespace) -> int:
     energy = A.quantity(r.need("energy", ""), "electron energy", "--energy",
                         A.Bounds(510998.95, 1e14, "[0.511 MeV, 100 TeV]"))
     period = A.quantity(r.need("period", ""), "length", "--period",
-                        A.Bounds(0.0, 10.0, "(0, 10 m]", low_open=True))
+                        A.Bounds(1e-3, 10.0, "[1 mm, 10 m]"))
     k_text, field_text = r.text("k"), r.text("field")
     target_text, check_text = r.text("target"), r.text("check")
-    k = None if k_text is None else A.plain(k_text, "--k", A.Bounds(0.0, 1000.0, "[0, 1000]"))
+    k = None if k_text is None else A.plain(k_text, "--k", A.Bounds(0.0, 100.0, "[0, 100]"))
     field = None if field_text is None else A.quantity(
-        field_text, "magnetic field", "--field", A.Bounds(0.0, 100.0, "[0, 100 T]"))
+        field_text, "magnetic field", "--field", A.Bounds(0.0, 20.0, "[0, 20 T]"))
     target = None if target_text is None else A.quantity(target_text, "length", "--target",
                                                          _WAVELENGTH)
     check = None if check_text is None else A.quantity(check_text, "length", "--check",
