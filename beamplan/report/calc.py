@@ -69,6 +69,11 @@ def _head(name: str, given: Given | None, mode: str | None = None) -> dict[str, 
     return {**head, "given": dict(given.typed), "defaults": dict(given.defaults)}
 
 
+def _light(polarisation: str) -> str:
+    """``s`` → ``s-polarised``; a mix ``s=0.7`` and ``unpolarised`` as they are."""
+    return f"{polarisation}-polarised" if polarisation in ("s", "p") else polarisation
+
+
 def _deg(rad: float) -> float:
     return math.degrees(rad)
 
@@ -107,10 +112,10 @@ def mirror_document(coating: str, grazing_rad: Sequence[float], wavelength_m: Se
                        "critical_grazing_deg": _deg(m.critical_angle_rad)})
     if len(points) == 1:
         p = points[0]
-        summary = (f"R = {p['reflectivity']:.5f} at {p['grazing_deg']:.4g}° grazing, "
-                   f"{p['wavelength_m'] * 1e9:.4g} nm, {polarisation} "
-                   f"(s {p['reflectivity_s']:.5f}, "
-                   f"p {p['reflectivity_p']:.5f}); δ {p['delta']:.4g}, β {p['beta']:.4g}, "
+        summary = (f"R = {p['reflectivity']:.5f} ({_light(polarisation)}) at "
+                   f"{p['grazing_deg']:.4g}° grazing, {p['wavelength_m'] * 1e9:.4g} nm; "
+                   f"R s-pol {p['reflectivity_s']:.5f}, R p-pol {p['reflectivity_p']:.5f}; "
+                   f"δ {p['delta']:.4g}, β {p['beta']:.4g}; "
                    f"critical grazing {p['critical_grazing_deg']:.4g}°")
     else:
         top = max(points, key=lambda q: float(q["reflectivity"]))
@@ -171,9 +176,9 @@ def stack_document(pair: tuple[str, str], period_m: float, absorber_fraction: fl
                  "bandwidth_fwhm_m": _f(p.fwhm_m), "index_wavelength_m": reference}
     if len(points) == 1:
         q = points[0]
-        summary = (f"R = {q['reflectivity']:.5f} at {q['incidence_deg']:.4g}° from the normal, "
-                   f"{q['wavelength_m'] * 1e9:.4g} nm, {polarisation} "
-                   f"(s {q['reflectivity_s']:.5f}, p {q['reflectivity_p']:.5f})")
+        summary = (f"R = {q['reflectivity']:.5f} ({_light(polarisation)}) at "
+                   f"{q['incidence_deg']:.4g}° from the normal, {q['wavelength_m'] * 1e9:.4g} nm; "
+                   f"R s-pol {q['reflectivity_s']:.5f}, R p-pol {q['reflectivity_p']:.5f}")
     else:
         summary = f"{len(points)} points; highest R {max(q['reflectivity'] for q in points):.5f}"
     if found is not None:

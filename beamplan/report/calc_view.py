@@ -131,7 +131,9 @@ def _cell(key: str, value: Any, *, unit: bool, calc: str = "") -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     text = show.fmt(value)
-    return f"{text} {show.unit}" if unit and show.unit else text
+    if not unit or not show.unit:
+        return text
+    return f"{text}{show.unit}" if show.unit == "°" else f"{text} {show.unit}"
 
 
 def _columns(points: list[Mapping[str, Any]]) -> list[str]:
