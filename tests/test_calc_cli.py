@@ -224,10 +224,21 @@ def test_stack_cap_needs_its_thickness(capsys: Capsys) -> None:
 def test_stack_periods_and_work_are_bounded(capsys: Capsys) -> None:
     code, _, err = run(capsys, "stack", "--periods", "1001")
     assert code == 2 and "--periods: '1001' is out of range" in err and "1 to 1000" in err
-    # 1000 points × 1000 periods is above the work bound (200,000 point-periods).
-    code, _, err = run(capsys, "stack", "--periods", "1000", "--wavelength", "13nm..14nm/1000")
+    # Hand calculation: 91 points × (1000 + 100) = 100,100 is above the work bound of 100,000;
+    # 90 points × 1100 = 99,000 is not (checked without running it: one point is enough here).
+    code, _, err = run(capsys, "stack", "--periods", "1000", "--wavelength", "13nm..14nm/91")
     assert code == 2 and "too much work" in err and err.count("\n") == 1
     assert doc_of(capsys, "stack", "--periods", "1000")["inputs"]["periods"] == 1000
+    code, _, err = run(capsys, "mirror", "--grazing", "5deg", "--wavelength", "1nm..2nm/2001")
+    assert code == 2 and "--wavelength: 2,001 wavelengths is too many" in err
+
+
+def test_a_closed_end_of_a_range_is_reachable(capsys: Capsys) -> None:
+    # '90deg' reads as 1.5707963267949 (15 digits), a hair above π/2: it is the end itself.
+    (point,) = doc_of(capsys, "mirror", "--grazing", "90deg")["points"]
+    assert point["grazing_rad"] == math.pi / 2 and point["grazing_deg"] == 90.0
+    code, _, err = run(capsys, "mirror", "--grazing", "90.001deg")
+    assert code == 2 and "give a value in (0, 90 deg]" in err
 
 
 # ---- drift ---------------------------------------------------------------------------------

@@ -25,9 +25,12 @@ from beamplan.errors import BeamplanError, ExitCode, UsageError
 
 __all__ = ["PhysicsError", "Recorder", "leaf", "register", "run"]
 
-#: The most periods of a stack, and the most (points × periods) one run may compute.
+#: The most periods of a stack, and the most work of one stack run: points × (periods + 100),
+#: where the 100 stands for the optical constants each new wavelength needs (about 1 s).
 MAX_PERIODS = 1000
-MAX_STACK_WORK = 200_000
+MAX_STACK_WORK = 100_000
+#: The most wavelengths of one mirror run (each needs its own optical constants).
+MAX_WAVELENGTHS = 2000
 #: The old calculator names, refused with the new one.
 RENAMED = {"reflect": "mirror", "multilayer": "stack", "gas": "drift"}
 
@@ -163,6 +166,9 @@ def _mirror(args: argparse.Namespace) -> int:
                         WAVELENGTH)
     _unused_steps(steps, grazing, wavelength)
     _rows(len(grazing.values), len(wavelength.values))
+    if len(wavelength.values) > MAX_WAVELENGTHS:
+        raise UsageError(f"--wavelength: {len(wavelength.values):,} wavelengths is too many "
+                         f"(at most {MAX_WAVELENGTHS:,}; each needs its own optical constants)")
     found = A.densities(args.density)
     r.text("density", "handbook")
     unknown = [f for f in found if f != coating]
@@ -219,9 +225,10 @@ def _stack(args: argparse.Namespace) -> int:
     _unused_steps(steps, incidence, wavelength)
     points = len(incidence.values) * len(wavelength.values)
     _rows(len(incidence.values), len(wavelength.values))
-    if points * periods > MAX_STACK_WORK:
-        raise UsageError(f"{points} points × {periods} periods is too much work (at most "
-                         f"{MAX_STACK_WORK:,}); scan fewer points or give fewer --periods")
+    if points * (periods + 100) > MAX_STACK_WORK:
+        raise UsageError(f"{points} points at {periods} periods is too much work (points × "
+                         f"(periods + 100) is at most {MAX_STACK_WORK:,}); scan fewer points "
+                         "or give fewer --periods")
     if args.peak and len(incidence.values) != 1:
         raise UsageError("--peak scans the wavelength at one --incidence; give a single angle")
     cap = _cap(r)

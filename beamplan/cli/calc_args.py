@@ -100,10 +100,18 @@ class Bounds:
     high_open: bool = False
 
     def holds(self, value: float) -> bool:
-        """Whether ``value`` lies in the range."""
+        """Whether ``value`` lies in the range (a closed end allows for the rounding of
+        units: ``90deg`` is read as 1.5707963267949, a hair above π/2)."""
         above = value > self.low if self.low_open else value >= self.low
         below = value < self.high if self.high_open else value <= self.high
         return above and below
+
+    def clamp(self, value: float) -> float:
+        """``value``, or a closed end it misses by rounding only (1e-12 relative)."""
+        for end, is_open in ((self.low, self.low_open), (self.high, self.high_open)):
+            if not is_open and value != end and abs(value - end) <= 1e-12 * abs(end):
+                return end
+        return value
 
 
 def _no_decimal_comma(text: str, option: str) -> None:
@@ -143,9 +151,11 @@ def quantity(text: str, dimension: str, option: str, bounds: Bounds | None = Non
             f"cannot read {excerpt(shown)} as {'an' if dimension[0] in 'aeiou' else 'a'} "
             f"{dimension}")
         raise UsageError(f"{option}: {said}{hint}") from exc
-    if bounds is not None and not bounds.holds(value):
-        raise UsageError(f"{option}: {excerpt(shown)} is out of range; give a value in "
-                         f"{bounds.shown}")
+    if bounds is not None:
+        value = bounds.clamp(value)
+        if not bounds.holds(value):
+            raise UsageError(f"{option}: {excerpt(shown)} is out of range; give a value in "
+                             f"{bounds.shown}")
     return value
 
 
