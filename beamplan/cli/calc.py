@@ -81,7 +81,7 @@ class Recorder:
                 self.defaults[name] = default
             return default
         text = " ".join(value) if isinstance(value, list) else str(value)
-        self.typed[name] = A.excerpt(text, 80)[1:-1] if len(text) > 80 else text
+        self.typed[name] = text if len(text) <= 80 else text[:80] + "…"
         return text
 
     def need(self, name: str, default: str) -> str:
@@ -261,6 +261,13 @@ def _drift(args: argparse.Namespace) -> int:
                                             wavelength, given=r.given()))
 
 
+class _Names(dict[str, Any]):
+    """The calculators by name; iterating (what "choose from" lists) skips retired names."""
+
+    def __iter__(self) -> Any:
+        return (name for name in super().__iter__() if name not in RENAMED)
+
+
 class _CalcParser(argparse.ArgumentParser):
     """A calculator's parser: one-line errors with a pointer to ``--help``; an old
     calculator name (``renamed`` set) is refused with its new name."""
@@ -387,3 +394,4 @@ def register(sub: Any) -> None:
 
     for old, new in RENAMED.items():
         calcs.add_parser(old, add_help=False).renamed = new
+    calcs.choices = _Names(calcs.choices)  # the retired names are known, but not offered
