@@ -31,11 +31,13 @@ def _changed(node: Node, answer: Answer) -> Node:
         return replace(node, heat_limit_w=value)
     if family == "max-power":
         return replace(node, max_w=value)
-    if family in ("range-high", "range-low"):
-        return replace(node, **{"gain_max" if family == "range-high" else "gain_min": value})
-    name = "fraction_max" if family == "share-high" else "fraction_min"
-    ports = tuple(replace(p, **{name: value}) if p.name == answer.port else p
-                  for p in node.ports)
+    if family == "range-high":
+        return replace(node, gain_max=value)
+    if family == "range-low":
+        return replace(node, gain_min=value)
+    high = family == "share-high"
+    ports = tuple((replace(p, fraction_max=value) if high else replace(p, fraction_min=value))
+                  if p.name == answer.port else p for p in node.ports)
     return replace(node, ports=ports)
 
 

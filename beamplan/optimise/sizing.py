@@ -69,6 +69,7 @@ class Answer:
     blocked_by: tuple[str, ...] = ()
     checked: bool | None = None
     parts: tuple[tuple[str, float], ...] = ()  # source answers: extra W per source
+    change_with_others: float | None = None  # when blocked: the change if they move too
 
     @property
     def key(self) -> str:
@@ -139,13 +140,20 @@ def _relaxed(lp: SizingLp, free: tuple[Limit, ...] = ()) -> tuple[bool, dict[str
                   if x[lm.relax_col] > _tol(lm) * (1.0 if not lm.is_fraction else 1e3)}, x
 
 
-def _blockers(lp: SizingLp, free: tuple[Limit, ...]) -> tuple[str, ...]:
+def _blockers(lp: SizingLp, free: tuple[Limit, ...]) -> tuple[Limit, ...]:
+    """The other limits the combined relaxation moves when ``free`` costs nothing."""
     names = {lm.key for lm in free}
     ok, relaxed, _ = _relaxed(lp, free)
-    return tuple(k for k in relaxed if k not in names) if ok else ()
+    return tuple(lm for lm in lp.limits if lm.key in relaxed and lm.key not in names) \
+        if ok else ()
 
 
-def _source(lp: SizingLp, unblocks: tuple[str, ...]) -> Answer:
+def _also(others: tuple[Limit, ...]) -> dict[int, tuple[float, float]]:
+    return {lm.relax_col: (0.0, INF) for lm in others}
+
+
+def _source(lp: SizingLp, unblocks: tuple[str, ...],
+            others: tuple[Limit, ...] | None = None) -> Answer:
     rows = tuple(lm for lm in lp.limits if lm.family == "source")
     standby = lp.network.standby_sources
     available = sum(lm.value for lm in rows if lm.element not in standby)
@@ -153,10 +161,16 @@ def _source(lp: SizingLp, unblocks: tuple[str, ...]) -> Answer:
     if not rows:
         return Answer("source", ids, None, "W", 0.0, None, None)
     status, extra, x = lp.solve({lm.relax_col: 1.0 for lm in rows},
-                                {lm.relax_col: (0.0, INF) for lm in rows})
-    if status != "optimal":
+                                {**_also(others or ()), **{lm.relax_col: (0.0, INF)
+                                                           for lm in rows}})
+    if others is not None:
         return Answer("source", ids, None, "W", available, None, None,
-                      blocked_by=_blockers(lp, rows))
+                      change_with_others=extra if status == "optimal" else None)
+    if status != "optimal":
+        blockers = _blockers(lp, rows)
+        return Answer("source", ids, None, "W", available, None, None,
+                      blocked_by=tuple(lm.key for lm in blockers),
+                      change_with_others=_source(lp, unblocks, blockers).change_with_others)
     if extra > CHANGE_RTOL * max(available, 1.0):
         parts = tuple((lm.element, float(x[lm.relax_col])) for lm in rows
                       if x[lm.relax_col] > IDLE_W)
@@ -166,9 +180,10 @@ def _source(lp: SizingLp, unblocks: tuple[str, ...]) -> Answer:
     return Answer("source", ids, None, "W", available, least, least - available)
 
 
-def _single(lp: SizingLp, limit: Limit, unblocks: tuple[str, ...]) -> Answer:
+def _single(lp: SizingLp, limit: Limit, unblocks: tuple[str, ...],
+            others: tuple[Limit, ...] | None = None) -> Answer:
     unit = "fraction" if limit.is_fraction else "W"
-    free = {limit.relax_col: (-INF, INF)}
+    free = {**_also(others or ()), limit.relax_col: (-INF, INF)}
     if not limit.is_fraction:
         status, change, _ = lp.solve({limit.relax_col: 1.0}, free)
         needed = limit.value + change
@@ -180,12 +195,19 @@ def _single(lp: SizingLp, limit: Limit, unblocks: tuple[str, ...]) -> Answer:
         if status == "optimal":
             needed = best if upward else -best
         else:  # no plan that serves every need passes power through it: any bound serves
-            status, _, _ = lp.solve({}, {limit.relax_col: (-INF, INF)})
+            del free[lp.z]
+            status, _, _ = lp.solve({}, free)
             needed = 0.0 if upward else 1.0
         change = needed - limit.value if upward else limit.value - needed
-    if status != "optimal":
+    if others is not None:
         return Answer(limit.family, limit.element, limit.port, unit, limit.value, None, None,
-                      blocked_by=_blockers(lp, (limit,)))
+                      change_with_others=change if status == "optimal" else None)
+    if status != "optimal":
+        blockers = _blockers(lp, (limit,))
+        with_others = _single(lp, limit, unblocks, blockers).change_with_others
+        return Answer(limit.family, limit.element, limit.port, unit, limit.value, None, None,
+                      blocked_by=tuple(lm.key for lm in blockers),
+                      change_with_others=with_others)
     gap = change > _tol(limit)
     return Answer(limit.family, limit.element, limit.port, unit, limit.value, needed, change,
                   unblocks if gap else ())
@@ -245,7 +267,7 @@ def size_network(network: Network, plan: Plan) -> Sizing:
     >>> sizing.source.closes, sizing.source.blocked_by
     (False, ('heat:cs-fold',))
     >>> [(a.key, round(a.change)) for a in sizing.combined]
-    [('source:fel-interim', 2465), ('heat:cs-fold', 85)]
+    [('source:fel-interim', 2312), ('heat:cs-fold', 75)]
     """
     lp = build_sizing_lp(network)
     served = set(lp.served)

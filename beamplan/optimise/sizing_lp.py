@@ -146,7 +146,7 @@ class SizingLp:
         lp.a_matrix_.index_ = index
         lp.a_matrix_.value_ = values
         with quiet_stdout():
-            highs = highspy.Highs()
+            highs = highspy.Highs()  # type: ignore[no-untyped-call]
         for option, value in (("output_flag", False), ("primal_feasibility_tolerance", 1e-10),
                               ("dual_feasibility_tolerance", 1e-10)):
             highs.setOptionValue(option, value)
