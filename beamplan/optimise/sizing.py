@@ -98,6 +98,7 @@ class Sizing:
     limits: tuple[Answer, ...]
     combined: tuple[Answer, ...]
     combined_possible: bool
+    combined_cost: float = 0.0  # the least total relaxation cost (see COSTS)
     costs: str = COSTS
 
     @property
@@ -213,10 +214,12 @@ def _single(lp: SizingLp, limit: Limit, unblocks: tuple[str, ...],
                   unblocks if gap else ())
 
 
-def _combined(lp: SizingLp, unblocks: tuple[str, ...]) -> tuple[bool, tuple[Answer, ...]]:
+def _combined(lp: SizingLp, unblocks: tuple[str, ...]
+              ) -> tuple[bool, tuple[Answer, ...], float]:
     ok, relaxed, x = _relaxed(lp)
     if not ok:
-        return False, ()
+        return False, (), 0.0
+    cost = sum(c * float(x[col]) for col, c in _costs(lp).items())
     out = []
     for limit in lp.limits:
         if limit.key not in relaxed:
@@ -234,7 +237,7 @@ def _combined(lp: SizingLp, unblocks: tuple[str, ...]) -> tuple[bool, tuple[Answ
         needed = limit.value + delta if limit.family.endswith("high") else limit.value - delta
         out.append(Answer(limit.family, limit.element, limit.port, "fraction", limit.value,
                           needed, delta, unblocks))
-    return True, tuple(out)
+    return True, tuple(out), cost
 
 
 def _reached(limit: Limit, plan: Plan) -> bool:
@@ -276,8 +279,8 @@ def size_network(network: Network, plan: Plan) -> Sizing:
     unreachable = tuple(s.id for s in plan.scanners if s.status in ("short", "cut off")
                         and s.id not in served)
     source = _source(lp, short)
-    possible, combined = _combined(lp, short) if short else (True, ())
+    possible, combined, cost = _combined(lp, short) if short else (True, (), 0.0)
     wanted = {a.key for a in combined}
     limits = tuple(_single(lp, lm, short) for lm in lp.limits
                    if lm.family != "source" and (lm.key in wanted or _reached(lm, plan)))
-    return Sizing(short, unreachable, source, limits, combined, possible)
+    return Sizing(short, unreachable, source, limits, combined, possible, cost)

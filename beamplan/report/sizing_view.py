@@ -119,8 +119,16 @@ def sizing_renderable(sizing: Sizing) -> Group:
         parts.append(Text(f"What it takes to serve every need ({len(sizing.short)} scanner"
                           f"{'s' if len(sizing.short) != 1 else ''} short: "
                           f"{', '.join(sizing.short)})", style="bold"))
+        combined = {a.key for a in sizing.combined}
+        shown = tuple(a for a in sizing.limits
+                      if (a.change is not None and a.change > 0) or a.key in combined)
         parts.append(_table("One change alone (every other limit as it is)",
-                            (sizing.source, *sizing.limits), True))
+                            (sizing.source, *shown), True))
+        hidden = len(sizing.limits) - len(shown)
+        if hidden:
+            parts.append(Text(f"{hidden} other limit{'s' if hidden != 1 else ''} reached in "
+                              "the plan cannot close the gap alone or need no change (the "
+                              "JSON and CSV reports list every one).", style="dim"))
         if sizing.combined:
             parts.append(_table("All together, least cost", sizing.combined, True))
             parts.append(Text(sizing.costs, style="dim"))
@@ -157,6 +165,7 @@ def sizing_document(sizing: Sizing) -> dict[str, Any]:
             "limits": [_answer_doc(a) for a in sizing.limits],
             "combined_possible": sizing.combined_possible,
             "combined": [_answer_doc(a) for a in sizing.combined],
+            "combined_cost": _round(sizing.combined_cost),
             "costs": sizing.costs}
 
 
