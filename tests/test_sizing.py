@@ -485,3 +485,22 @@ def test_nearly_met_layouts_have_single_answers() -> None:
         families |= {a.family for a in (sizing.source, *sizing.limits)
                      if a.change is not None and a.change > 1e-6}
     assert "source" in families and len(families) >= 3
+
+
+def test_documented_commands_run(capsys) -> None:  # type: ignore[no-untyped-def]
+    # Common practice, no source: the sizing commands shown in README.md and
+    # docs/lp-formulation.md must run (the overbooked demo is short: exit 3).
+    lines = []
+    for doc in ("README.md", os.path.join("docs", "lp-formulation.md")):
+        with open(os.path.join(ROOT, doc)) as f:
+            lines += [ln.split("#")[0].split() for ln in f if "--what-it-takes" in ln
+                      and ln.startswith("beamplan ")]
+    assert len(lines) >= 2
+    cwd = os.getcwd()
+    try:
+        os.chdir(ROOT)
+        for words in lines:
+            assert main(words[1:]) == 3, words
+            assert "What it takes" in capsys.readouterr().out
+    finally:
+        os.chdir(cwd)

@@ -299,7 +299,7 @@ def build_sizing_lp(network: Network) -> SizingLp:
     >>> from beamplan.network.graph import build_network
     >>> lp = build_sizing_lp(build_network(load_layout("layouts/overbooked.yaml")))
     >>> sorted({limit.family for limit in lp.limits})
-    ['heat', 'max-power', 'range-high', 'range-low', 'share-high', 'share-low', 'source']
+    ['heat', 'max-power', 'range-low', 'share-high', 'share-low', 'source']
     """
     m = SizingLp(network)
     for link in network.links:
