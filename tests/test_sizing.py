@@ -38,7 +38,7 @@ def network_of(text: str) -> Network:
 
 
 def sizing_of(net: Network) -> Sizing:
-    return what_it_takes(net, plan_network(net), "highs")
+    return what_it_takes(net, plan_network(net), "highs", max_checks=1000)
 
 
 def single(sizing: Sizing, key: str) -> Answer:

@@ -4,7 +4,9 @@
 answer that closes the gap (or, when every need is met, each margin) is
 applied to a copy of the network's nodes and planned again, and the answer
 is marked ``checked`` when every scanner then meets its need (to the
-planner's ``MET_RTOL``). The combined answer is applied all at once.
+planner's ``MET_RTOL``). The combined answer is applied all at once. Each
+check is a whole plan, so on large layouts only the first ``MAX_CHECKS``
+single-limit answers are checked.
 """
 
 from __future__ import annotations
@@ -17,7 +19,9 @@ from beamplan.optimise.planner import MET_RTOL, plan_network
 from beamplan.optimise.result import Plan
 from beamplan.optimise.sizing import Answer, Sizing, size_network
 
-__all__ = ["apply_answers", "replan_meets", "what_it_takes"]
+__all__ = ["MAX_CHECKS", "apply_answers", "replan_meets", "what_it_takes"]
+
+MAX_CHECKS = 8  # single-limit answers re-planned per report (each is one plan)
 
 
 def _changed(node: Node, answer: Answer) -> Node:
@@ -80,8 +84,13 @@ def _check(network: Network, answers: tuple[Answer, ...], served: tuple[str, ...
     return replan_meets(apply_answers(network, answers), served, solver)
 
 
-def what_it_takes(network: Network, plan: Plan, solver: str = "auto") -> Sizing:
+def what_it_takes(network: Network, plan: Plan, solver: str = "auto",
+                  max_checks: int = MAX_CHECKS) -> Sizing:
     """The sizing answers of a plan, each checked by re-planning with it applied.
+
+    The source answer and the combined answer are always checked; of the
+    single-limit answers, the ``max_checks`` with the largest change (or the
+    smallest margin) are, the rest keep ``checked=None``.
 
     Examples
     --------
@@ -103,5 +112,7 @@ def what_it_takes(network: Network, plan: Plan, solver: str = "auto") -> Sizing:
     if combined:
         ok = _check(network, combined, served, solver)
         combined = tuple(replace(a, checked=ok) for a in combined)
-    return replace(sizing, source=checked(sizing.source),
-                   limits=tuple(checked(a) for a in sizing.limits), combined=combined)
+    answerable = [i for i, a in enumerate(sizing.limits) if a.change is not None]
+    first = sorted(answerable, key=lambda i: -(sizing.limits[i].change or 0.0))[:max_checks]
+    limits = tuple(checked(a) if i in first else a for i, a in enumerate(sizing.limits))
+    return replace(sizing, source=checked(sizing.source), limits=limits, combined=combined)

@@ -30,7 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from beamplan.network.graph import Network
-from beamplan.optimise.result import Plan
+from beamplan.optimise.result import ElementResult, Plan
 from beamplan.optimise.sizing_lp import INF, Limit, SizingLp, build_sizing_lp
 
 __all__ = ["Answer", "Sizing", "size_network"]
@@ -240,14 +240,14 @@ def _combined(lp: SizingLp, unblocks: tuple[str, ...]
     return True, tuple(out), cost
 
 
-def _reached(limit: Limit, plan: Plan) -> bool:
+def _reached(limit: Limit, plan: Plan, elements: dict[str, ElementResult]) -> bool:
     """Whether the plan reaches a limit (to TIGHT_RTOL)."""
     if limit.family == "source":
         return any(s.id == limit.element and s.output_w >= s.available_w * (1 - TIGHT_RTOL)
                    for s in plan.sources)
     if limit.family == "max-power":
         return plan.scanner(limit.element).delivered_w >= limit.value * (1 - TIGHT_RTOL)
-    element = plan.element(limit.element)
+    element = elements[limit.element]
     if limit.family == "heat":
         return element.absorbed_w >= limit.value * (1 - TIGHT_RTOL)
     if element.incident_w <= IDLE_W or element.setting is None:
@@ -281,6 +281,7 @@ def size_network(network: Network, plan: Plan) -> Sizing:
     source = _source(lp, short)
     possible, combined, cost = _combined(lp, short) if short else (True, (), 0.0)
     wanted = {a.key for a in combined}
-    limits = tuple(_single(lp, lm, short) for lm in lp.limits
-                   if lm.family != "source" and (lm.key in wanted or _reached(lm, plan)))
+    elements = {e.id: e for e in plan.elements}
+    limits = tuple(_single(lp, lm, short) for lm in lp.limits if lm.family != "source"
+                   and (lm.key in wanted or _reached(lm, plan, elements)))
     return Sizing(short, unreachable, source, limits, combined, possible, cost)

@@ -14,11 +14,12 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
 from beamplan.network.behaviour import Behaviour, Node
-from beamplan.network.graph import Network
+from beamplan.network.graph import Link, Network
 
 __all__ = ["Limit", "SizingLp", "build_sizing_lp", "reachable_scanners"]
 
@@ -73,6 +74,7 @@ class SizingLp:
     z: int = -1
     served: tuple[str, ...] = ()  # scanners whose need is enforced
     _csc: tuple[np.ndarray, ...] | None = field(default=None, repr=False)
+    _live: Any = field(default=None, repr=False)
 
     def add_column(self, low: float = 0.0, high: float = INF) -> int:
         """Add a column; return its number."""
@@ -123,24 +125,57 @@ class SizingLp:
         """
         import highspy
 
-        from beamplan.optimise.backend import quiet_stdout
-
+        highs = self._highs()
+        inf = highspy.kHighsInf
         low = np.array(self.col_low)
         high = np.array(self.col_high)
         for col, (lo, hi) in bounds.items():
             low[col], high[col] = lo, hi
-        lp = highspy.HighsLp()
-        lp.num_col_ = len(low)
-        lp.num_row_ = len(self.rows)
         costs = np.zeros(len(low))
         for col, value in cost.items():
             costs[col] += value
-        lp.col_cost_ = costs
-        lp.col_lower_ = np.maximum(low, -highspy.kHighsInf)
-        lp.col_upper_ = np.minimum(high, highspy.kHighsInf)
+        every = np.arange(len(low), dtype=np.int32)
+        highs.changeColsCost(len(low), every, costs)
+        highs.changeColsBounds(len(low), every, np.maximum(low, -inf), np.minimum(high, inf))
+        for coefs, lo, hi in extra_rows:
+            cols = np.array(list(coefs), dtype=np.int32)
+            highs.addRow(max(lo, -inf), min(hi, inf), len(cols), cols,
+                         np.array(list(coefs.values()), dtype=float))
+        try:
+            highs.run()
+            status = highs.getModelStatus()
+            if status != highspy.HighsModelStatus.kOptimal:
+                highs.clearSolver()  # a warm start from a stale basis may misjudge: afresh
+                highs.run()
+                status = highs.getModelStatus()
+            if status != highspy.HighsModelStatus.kOptimal:
+                return "infeasible", float("nan"), np.empty(0)
+            values = np.asarray(highs.getSolution().col_value)
+            return "optimal", float(highs.getInfo().objective_function_value), values
+        finally:
+            if extra_rows:
+                first = len(self.rows)
+                extra = np.arange(first, first + len(extra_rows), dtype=np.int32)
+                highs.deleteRows(len(extra), extra)
+
+    def _highs(self) -> Any:
+        """The live HiGHS model of the base rows, built on first use, re-solved warm."""
+        if self._live is not None:
+            return self._live
+        import highspy
+
+        from beamplan.optimise.backend import quiet_stdout
+
+        inf = highspy.kHighsInf
+        lp = highspy.HighsLp()
+        lp.num_col_ = len(self.col_low)
+        lp.num_row_ = len(self.rows)
+        lp.col_cost_ = np.zeros(len(self.col_low))
+        lp.col_lower_ = np.maximum(np.array(self.col_low), -inf)
+        lp.col_upper_ = np.minimum(np.array(self.col_high), inf)
         row_low, row_high, starts, index, values = self._matrix()
-        lp.row_lower_ = np.maximum(row_low, -highspy.kHighsInf)
-        lp.row_upper_ = np.minimum(row_high, highspy.kHighsInf)
+        lp.row_lower_ = np.maximum(row_low, -inf)
+        lp.row_upper_ = np.minimum(row_high, inf)
         lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
         lp.a_matrix_.start_ = starts
         lp.a_matrix_.index_ = index
@@ -151,23 +186,33 @@ class SizingLp:
                               ("dual_feasibility_tolerance", 1e-10)):
             highs.setOptionValue(option, value)
         highs.passModel(lp)
-        for coefs, lo, hi in extra_rows:
-            cols = np.array(list(coefs), dtype=np.int32)
-            highs.addRow(max(lo, -highspy.kHighsInf), min(hi, highspy.kHighsInf), len(cols),
-                         cols, np.array(list(coefs.values()), dtype=float))
-        highs.run()
-        status = highs.getModelStatus()
-        if status != highspy.HighsModelStatus.kOptimal:
-            return "infeasible", float("nan"), np.empty(0)
-        values_out = np.asarray(highs.getSolution().col_value)
-        return "optimal", float(highs.getInfo().objective_function_value), values_out
+        self._live = highs
+        return highs
+
+
+def _may_pass(network: Network, link: Link) -> bool:
+    """Whether some change of the relaxable limits lets power pass ``link``.
+
+    Share and transmission bounds are relaxable, so a splitter output passes
+    when its efficiency is positive and an adjustable attenuator in service
+    passes; an outage passes nothing.
+    """
+    tail = network.node[link.tail]
+    if not tail.in_service:
+        return False
+    if tail.behaviour is Behaviour.SPLIT:
+        return any(p.efficiency > 0.0 for p in tail.ports if p.name == link.port)
+    if tail.behaviour is Behaviour.RANGE:
+        return True
+    return network.port_gain_max(link) > 0.0
 
 
 def reachable_scanners(network: Network) -> frozenset[str]:
     """Scanners in service that some in-service source can send power to.
 
-    A link carries nothing when its tail passes nothing (gain 0, an outage) or
-    when a switch selects another input. No change of a limit serves the others.
+    A link carries nothing when its tail passes nothing whatever its bounds
+    (gain or efficiency 0, an outage) or when a switch selects another input.
+    No change of a limit serves the other scanners.
 
     Examples
     --------
@@ -180,7 +225,7 @@ def reachable_scanners(network: Network) -> frozenset[str]:
     for link in network.links:
         head = network.node[link.head]
         blocked = head.behaviour is Behaviour.COMBINE and head.select not in (None, link.tail)
-        if not blocked and network.port_gain_max(link) > 0.0:
+        if not blocked and _may_pass(network, link):
             carry.setdefault(link.tail, []).append(link.head)
     stack = [s.id for s in network.sources if s.in_service and s.available_w > 0.0]
     seen = set(stack)
