@@ -504,3 +504,28 @@ def test_documented_commands_run(capsys) -> None:  # type: ignore[no-untyped-def
             assert "What it takes" in capsys.readouterr().out
     finally:
         os.chdir(cwd)
+
+
+def test_closed_output_is_sized_not_unreachable() -> None:
+    # Hand calculation: output a is closed (fraction 0), so s1 is cut off; its 200 W of
+    # the 1000 W source needs the upper bound raised to 0.2, alone and in the combined
+    # answer (cost 200 W / 1000 W reach = 0.2), and more source power cannot help.
+    net = network_of(layout("""
+sources: {src: {power: 1000 W}}
+elements:
+  t1: {kind: splitter, outputs: {a: {fraction: 0.0}, b: {}}}
+scanners:
+  s1: {power: 200 W}
+  s2: {power: 300 W}
+beamlines:
+  - src -> t1
+  - t1.a -> s1
+  - t1.b -> s2
+"""))
+    sizing = sizing_of(net)
+    assert sizing.short == ("s1",) and sizing.unreachable == ()
+    assert single(sizing, "share-high:t1.a").needed == pytest.approx(0.2, abs=1e-9)
+    assert sizing.source.change is None
+    [answer] = sizing.combined
+    assert answer.needed == pytest.approx(0.2, abs=1e-8) and answer.checked is True
+    assert sizing.combined_cost == pytest.approx(0.2, rel=1e-8)

@@ -38,6 +38,7 @@ __all__ = ["Answer", "Sizing", "size_network"]
 CHANGE_RTOL = 1e-7  # a change below this (relative to its limit, or a fraction) is none
 TIGHT_RTOL = 1e-6  # a limit within this of its value in the plan is reached
 IDLE_W = 1e-9
+HOLD_RTOL, HOLD_ABS = 1e-9, 1e-12  # the least relaxation cost, held in a second stage
 
 COSTS = ("Every change is costed as a relative change of its own limit: +1 % of a source's "
          "power, of a heat limit or of a max_power costs as much as a share or "
@@ -219,7 +220,24 @@ def _combined(lp: SizingLp, unblocks: tuple[str, ...]
     ok, relaxed, x = _relaxed(lp)
     if not ok:
         return False, (), 0.0
-    cost = sum(c * float(x[col]) for col, c in _costs(lp).items())
+    costs = _costs(lp)
+    cost = sum(c * float(x[col]) for col, c in costs.items())
+    bounds = [lm for lm in lp.limits if lm.is_fraction and lm.key in relaxed]
+    if bounds:
+        # A bound's change is r / in(e): at the same least cost, let the elements whose
+        # bounds move carry as much as they can, so that the fractions reported are small.
+        held = (costs, -INF, cost * (1 + HOLD_RTOL) + HOLD_ABS)
+        reach = {lm.element: costs[lm.relax_col] for lm in bounds}
+        aim: dict[int, float] = {}
+        for lm in bounds:
+            for col, coef in lm.denominator.items():
+                aim[col] = aim.get(col, 0.0) - coef * reach[lm.element]
+        status, _, again = lp.solve(aim, {lm.relax_col: (0.0, INF) for lm in lp.limits},
+                                    (held,))
+        if status == "optimal":
+            x = again
+            relaxed = {lm.key: float(x[lm.relax_col]) for lm in lp.limits
+                       if x[lm.relax_col] > _tol(lm) * (1.0 if not lm.is_fraction else 1e3)}
     out = []
     for limit in lp.limits:
         if limit.key not in relaxed:
