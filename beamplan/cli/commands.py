@@ -73,7 +73,8 @@ def _plan(args: argparse.Namespace) -> int:
         _print_warnings(network)
     plan = plan_network(network, args.goal, args.solver)
     sizing = None
-    if args.what_it_takes or not plan.all_met:
+    shown = not args.quiet or args.json or args.csv
+    if shown and (args.what_it_takes or not plan.all_met):
         from beamplan.analyses.sizing_check import what_it_takes
 
         sizing = what_it_takes(network, plan, args.solver)
