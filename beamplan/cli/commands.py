@@ -73,14 +73,20 @@ def _plan(args: argparse.Namespace) -> int:
     if not args.quiet:
         _print_warnings(network)
     plan = plan_network(network, args.goal, args.solver)
+    sizing = None
+    shown = not args.quiet or args.json or args.csv
+    if shown and (args.what_it_takes or not plan.all_met):
+        from beamplan.analyses.sizing_check import what_it_takes
+
+        sizing = what_it_takes(network, plan, args.solver)
     if args.json:
         from beamplan.report.document import plan_json
 
-        emit(args.json, plan_json(plan, __version__), inputs)
+        emit(args.json, plan_json(plan, __version__, sizing), inputs)
     if args.csv:
         from beamplan.report.document import write_csv
 
-        write_csv(plan, args.csv, inputs)
+        write_csv(plan, args.csv, inputs, sizing)
     if args.html:
         from beamplan.report.html import plan_html
 
@@ -89,7 +95,7 @@ def _plan(args: argparse.Namespace) -> int:
     if not to_stdout and not args.quiet:
         from beamplan.report.terminal import plan_renderable
 
-        _console().print(plan_renderable(plan, elements=not args.brief))
+        _console().print(plan_renderable(plan, elements=not args.brief, sizing=sizing))
     return int(ExitCode.OK if plan.all_met else ExitCode.SHORT)
 
 
@@ -122,6 +128,10 @@ def register(sub: Any) -> None:
     plan.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
                       help="LP solver (default: HiGHS in process, CBC if highspy is missing)")
     plan.add_argument("--brief", action="store_true", help="leave out the element table")
+    plan.add_argument("--what-it-takes", action="store_true",
+                      help="report what it takes to serve every need even when all are met "
+                      "(then the margins: the least source power and how far each limit "
+                      "reached sits from blocking); a plan that falls short always has it")
     plan.add_argument("-q", "--quiet", action="store_true",
                       help="no terminal report (files and exit code only)")
     plan.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)

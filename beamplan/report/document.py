@@ -14,6 +14,7 @@ from collections.abc import Iterable
 from typing import Any
 
 from beamplan.optimise.result import Plan
+from beamplan.optimise.sizing import Sizing
 from beamplan.report import CAUTION
 from beamplan.report.files import write_tables
 from beamplan.units import format_power
@@ -168,8 +169,11 @@ def _setting(value: Any) -> Any:
     return number(value, "setting")
 
 
-def plan_document(plan: Plan, version: str) -> dict[str, Any]:
+def plan_document(plan: Plan, version: str, sizing: Sizing | None = None) -> dict[str, Any]:
     """The plan as a JSON-ready dict in the documented key order.
+
+    ``sizing`` (what it takes, when asked or when the plan falls short) adds
+    the optional ``sizing`` object after ``binding``.
 
     Examples
     --------
@@ -178,7 +182,7 @@ def plan_document(plan: Plan, version: str) -> dict[str, Any]:
     >>> doc["format"], doc["status"], [s["id"] for s in doc["scanners"]][:1]
     ('beamplan-plan/1', 'met', ['litho-p1'])
     """
-    return {
+    doc = {
         "format": PLAN_FORMAT,
         "beamplan_version": version,
         "layout": {"name": plan.layout, "file": plan.file, "sha256": plan.sha256},
@@ -226,11 +230,20 @@ def plan_document(plan: Plan, version: str) -> dict[str, Any]:
         "warnings": list(plan.warnings),
         "caution": CAUTION,
     }
+    if sizing is None:
+        return doc
+    from beamplan.report.sizing_view import sizing_document
+
+    keys = list(doc)
+    at = keys.index("binding") + 1
+    extra = {"sizing": sizing_document(sizing)}
+    return {k: v for part in (keys[:at], list(extra), keys[at:]) for k in part
+            for v in [extra[k] if k in extra else doc[k]]}
 
 
-def plan_json(plan: Plan, version: str) -> str:
+def plan_json(plan: Plan, version: str, sizing: Sizing | None = None) -> str:
     """The JSON text of a plan (indented, newline-terminated)."""
-    return to_json(plan_document(plan, version))
+    return to_json(plan_document(plan, version, sizing))
 
 
 def csv_text(header: list[str], rows: Iterable[list[Any]]) -> str:
@@ -253,15 +266,15 @@ def csv_text(header: list[str], rows: Iterable[list[Any]]) -> str:
     return buffer.getvalue()
 
 
-def csv_tables(plan: Plan) -> dict[str, str]:
-    """One CSV text per table: sources, scanners, elements, losses, binding."""
+def csv_tables(plan: Plan, sizing: Sizing | None = None) -> dict[str, str]:
+    """One CSV text per table: sources, scanners, elements, losses, binding (and sizing)."""
     def setting(value: Any) -> str:
         s = _setting(value)
         if isinstance(s, dict):
             return ";".join(f"{k}={v}" for k, v in s.items())
         return "" if s is None else str(s)
 
-    return {
+    tables = {
         "sources.csv": csv_text(["id", "available_w", "output_w", "electrical_w"],
                               ([s.id, rounded(s.available_w), rounded(s.output_w),
                                 rounded(s.electrical_w)] for s in plan.sources)),
@@ -286,8 +299,14 @@ def csv_tables(plan: Plan) -> dict[str, str]:
                               ([b.constraint, b.family, b.subject, rounded(b.shadow_price), b.unit,
                                 b.description] for b in plan.binding)),
     }
+    if sizing is not None:
+        from beamplan.report.sizing_view import sizing_csv
+
+        tables["sizing.csv"] = csv_text(*sizing_csv(sizing))
+    return tables
 
 
-def write_csv(plan: Plan, folder: str, inputs: Iterable[str] = ()) -> list[str]:
+def write_csv(plan: Plan, folder: str, inputs: Iterable[str] = (),
+              sizing: Sizing | None = None) -> list[str]:
     """Write the CSV tables into ``folder`` (created if needed); return the paths."""
-    return write_tables(folder, csv_tables(plan), inputs)
+    return write_tables(folder, csv_tables(plan, sizing), inputs)

@@ -17,6 +17,7 @@ from rich.text import Text
 from beamplan.errors import Diagnostic
 from beamplan.network.behaviour import GIVEN
 from beamplan.optimise.result import ElementResult, Plan
+from beamplan.optimise.sizing import Sizing
 from beamplan.report import CAUTION
 from beamplan.report.document import signed_percent, signed_power
 from beamplan.units import format_power
@@ -217,7 +218,8 @@ def _shortfalls(plan: Plan) -> list[Any]:
     return out
 
 
-def plan_renderable(plan: Plan, *, elements: bool = True) -> Group:
+def plan_renderable(plan: Plan, *, elements: bool = True, sizing: Sizing | None = None
+                    ) -> Group:
     """The whole plan report as one rich renderable.
 
     Examples
@@ -237,6 +239,10 @@ def plan_renderable(plan: Plan, *, elements: bool = True) -> Group:
         if extra is not None:
             parts += [Text(""), extra]
     parts += [Text(""), _losses(plan), Text(""), _binding(plan)]
+    if sizing is not None:
+        from beamplan.report.sizing_view import sizing_renderable
+
+        parts += [Text(""), sizing_renderable(sizing)]
     if plan.warnings:
         parts.append(Text(f"{len(plan.warnings)} warning(s) from the layout check; run "
                           "'beamplan check' to see them.", style="dim"))
