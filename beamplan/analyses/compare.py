@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Collection
 from dataclasses import dataclass
 
 from beamplan.analyses.cases import Case, build_case, case_diagnostics
@@ -71,8 +72,12 @@ def _flat(setting: object) -> dict[str | None, float]:
     return {}
 
 
-def settings_moves(base: Plan, case: Plan) -> tuple[SettingMove, ...]:
+def settings_moves(base: Plan, case: Plan, out_of_service: Collection[str] = ()
+                   ) -> tuple[SettingMove, ...]:
     """The settings of ``case`` that differ from those of ``base`` (elements in both).
+
+    Elements idle in the case, or listed in ``out_of_service``, have no setting
+    that matters and are left out.
 
     Examples
     --------
@@ -84,7 +89,7 @@ def settings_moves(base: Plan, case: Plan) -> tuple[SettingMove, ...]:
     before = {e.id: _flat(e.setting) for e in base.elements}
     moves = []
     for element in case.elements:
-        if element.incident_w <= 0.0:
+        if element.incident_w <= 0.0 or element.id in out_of_service:
             continue  # an idle element's setting does not matter
         old = before.get(element.id, {})
         for output, value in _flat(element.setting).items():
@@ -132,6 +137,7 @@ def compare_cases(base: Layout, cases: dict[str, Case], *, goal: str = "headroom
         else:
             plan = plan_network(network, goal, solver)
         newly = tuple(b.description for b in plan.binding if b.description not in base_binding)
+        failed = {n.id for n in network.nodes if not n.in_service}
         outcomes.append(CaseOutcome(name, cases[name].note, plan, newly,
-                                    settings_moves(base_plan, plan), best))
+                                    settings_moves(base_plan, plan, failed), best))
     return Comparison(base.name, goal, base_plan, tuple(outcomes), steady)
