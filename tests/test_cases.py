@@ -119,17 +119,24 @@ def test_settings_stability_moves_nothing_when_the_base_settings_serve() -> None
 
 
 def test_settings_stability_moves_only_the_knob_that_must_move() -> None:
-    # litho-p1's max_power drops from 1.4 kW to 1 kW. A free re-plan retunes both
-    # splitters; but the only knob that must move is the attenuator a1 in
+    # litho-p1's max_power drops from 1.4 kW to 1 kW. The plain re-plan retunes both
+    # splitters to send the 400 W freed to litho-p3 (1.99 kW -> 2.39 kW). With a
+    # tolerance of 20 % litho-p3 may stay near its base 1.99 kW (17 % below the
+    # plain case), so the only knob that must move is the attenuator a1 in
     # litho-p1's own branch (hand reasoning: turning it down keeps every other
-    # ratio and caps litho-p1 at 1 kW).
+    # ratio and caps litho-p1 at 1 kW). With no tolerance, litho-p3 must get its
+    # plain-case power, which takes the splitters.
     base, doc = _base()
     cases = _cases("format: 1\ncases:\n  c: {changes: [{set: {litho-p1.max_power: 1 kW}}]}\n")
     free = compare_cases(base, cases, base_doc=doc).cases[0]
-    steady = compare_cases(base, cases, base_doc=doc, steady=0.0).cases[0]
+    loose = compare_cases(base, cases, base_doc=doc, steady=0.2).cases[0]
+    tight = compare_cases(base, cases, base_doc=doc, steady=0.0).cases[0]
     assert {m.element for m in free.moves} >= {"t1", "t2"}
-    assert {m.element for m in steady.moves} == {"a1"}
-    assert steady.plan.headroom_factor == pytest.approx(free.plan.headroom_factor, rel=1e-6)
+    assert {m.element for m in loose.moves} == {"a1"}
+    assert {m.element for m in tight.moves} >= {"t1", "t2"}
+    assert loose.plan.headroom_factor == pytest.approx(free.plan.headroom_factor, rel=1e-6)
+    for s, f in zip(loose.plan.scanners, free.plan.scanners, strict=True):
+        assert s.delivered_w >= 0.8 * f.delivered_w * (1 - 1e-6), s.id
 
 
 @settings(max_examples=20, deadline=None, derandomize=True, database=None,
