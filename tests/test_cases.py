@@ -209,3 +209,76 @@ def test_cli_sweep(capsys: pytest.CaptureFixture[str]) -> None:
     out = capsys.readouterr().out
     assert code == 0 and "t1" in out and "Single points of failure" in out
     assert main(["sweep", PILOT, "--only", "zz"]) == 2
+
+
+TWO_BAY = "layouts/two-bay.yaml"
+
+
+def _two_bay():  # type: ignore[no-untyped-def]
+    doc = load_yaml(TWO_BAY)
+    return parse_layout(doc), doc
+
+
+@pytest.mark.parametrize("value", ["sb-drift", "fel-standby"])
+def test_a_switch_set_to_the_standby_input_plans_with_the_standby_source(value: str) -> None:
+    # two-bay: with fel-main failed and sw-source on the standby line, every
+    # scanner is served by fel-standby alone (4 kW, layout file), which is then
+    # fully drawn: 12 scanners need 5.06 kW at IF and the path gain is below 0.8
+    # (hand reading of the layout), so every scanner is short but none cut off.
+    base, doc = _two_bay()
+    cases = _cases("format: 1\ncases:\n  standby:\n    changes:\n      - fail: fel-main\n"
+                   f"      - set: {{sw-source.select: {value}}}\n"
+                   "  no-switch: {changes: [{fail: fel-main}]}\n")
+    comparison = compare_cases(base, cases, base_doc=doc)
+    plans = {c.name: c.plan for c in comparison.cases}
+    standby = plans["standby"]
+    used = {s.id: s.output_w for s in standby.sources}
+    assert used["fel-main"] == 0.0
+    assert used["fel-standby"] == pytest.approx(4000.0, rel=1e-6)
+    assert all(0.0 < s.delivered_w < s.need_w for s in standby.scanners)
+    assert all(s.delivered_w == 0.0 for s in plans["no-switch"].scanners)  # at failure
+
+
+def test_the_same_switch_move_made_by_hand_in_the_layout(tmp_path: pathlib.Path) -> None:
+    # Reference: the layout file edited by hand (select: sb-drift) and planned.
+    base, doc = _two_bay()
+    cases = _cases("format: 1\ncases:\n  c: {changes: [{set: {sw-source.select: sb-drift}}]}\n")
+    case = compare_cases(base, cases, base_doc=doc).cases[0].plan
+    text = pathlib.Path(TWO_BAY).read_text().replace("select: src-tunnel}", "select: sb-drift}")
+    edited = tmp_path / "edited.yaml"
+    edited.write_text(text)
+    by_hand = beamplan.plan(str(edited))
+    assert case.headroom_factor == pytest.approx(by_hand.headroom_factor, rel=1e-9)
+    for a, b in zip(case.scanners, by_hand.scanners, strict=True):
+        assert a.delivered_w == pytest.approx(b.delivered_w, rel=1e-9)
+
+
+@pytest.mark.parametrize(("change", "fragment"), [
+    ("{set: {sw-source.select: sb-drif}}",
+     "'sb-drif' is not an input of switch 'sw-source'; did you mean 'sb-drift'? the inputs "
+     "are: src-tunnel (from fel-main), sb-drift (from fel-standby)"),
+    ("{set: {sw-source.select: an-fold}}", "the inputs are: src-tunnel (from fel-main)"),
+    ("{scale: {sw-source.select: 2}}", "names an input and cannot be scaled"),
+    ("{set: {an-fold.select: sb-drift}}", "'select' applies to switches only; 'an-fold' is a "
+     "mirror"),
+])
+def test_a_bad_switch_position_is_one_located_error(change: str, fragment: str) -> None:
+    base, doc = _two_bay()
+    with pytest.raises(LayoutError) as info:
+        compare_cases(base, _cases(f"format: 1\ncases:\n  c:\n    changes:\n      - {change}\n"),
+                      base_doc=doc)
+    [error] = info.value.errors
+    assert fragment in error.format(), error.format()
+    assert error.location is not None and (error.location.file, error.location.line) == (
+        "cases.yaml", 5)
+
+
+def test_cli_sets_a_switch(capsys: pytest.CaptureFixture[str]) -> None:
+    code = main(["cases", TWO_BAY, "--fail", "fel-main", "--set", "sw-source.select=sb-drift",
+                 "--json", "-"])
+    doc = json.loads(capsys.readouterr().out)
+    assert code == 3  # 4 kW cannot meet 5.06 kW of need (hand sum of the layout's needs)
+    assert doc["cases"][0]["source_used_w"] == pytest.approx(4000.0, rel=1e-6)
+    code = main(["cases", TWO_BAY, "--set", "sw-source.select=nowhere"])
+    err = capsys.readouterr().err
+    assert code == 1 and "<command line>:" in err and "the inputs are: src-tunnel" in err
