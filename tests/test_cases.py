@@ -282,3 +282,18 @@ def test_cli_sets_a_switch(capsys: pytest.CaptureFixture[str]) -> None:
     code = main(["cases", TWO_BAY, "--set", "sw-source.select=nowhere"])
     err = capsys.readouterr().err
     assert code == 1 and "<command line>:" in err and "the inputs are: src-tunnel" in err
+
+
+def test_the_shipped_case_file_of_the_docs_plans() -> None:
+    # docs/cases.md shows layouts/cases/two-bay-cases.yaml; each case must apply
+    # to the two-bay demo (hand reading: litho-b7 joins, standby-day runs on the
+    # 4 kW standby FEL).
+    base, doc = _two_bay()
+    cases = parse_cases(load_yaml("layouts/cases/two-bay-cases.yaml"))
+    plans = {c.name: c.plan for c in compare_cases(base, cases, base_doc=doc).cases}
+    assert set(plans) == {"bay-b-grows", "trunk-fold-ages", "b-service", "worst-day",
+                          "standby-day"}
+    assert plans["bay-b-grows"].scanner("litho-b7").delivered_w > 0
+    assert plans["worst-day"].scanner("litho-a1").status == "cut off"
+    used = {s.id: s.output_w for s in plans["standby-day"].sources}
+    assert used["fel-main"] == 0.0 and used["fel-standby"] == pytest.approx(4000.0, rel=1e-6)
