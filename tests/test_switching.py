@@ -144,7 +144,7 @@ def test_sweep_terminal_report_shows_both_views(capsys: pytest.CaptureFixture[st
     assert main(["sweep", TWO_BAY, "--top", "80"]) == 0
     out = capsys.readouterr().out
     assert "ranked by impact after switching" in out
-    assert "Corrective switching (sw-source (2 inputs)): every combination" in out
+    assert "Corrective switching, sw-source (2 inputs): every combination" in out
     assert "only at the moment of failure" in out and "fel-main" in out
     fel = out[out.index("fel-main "):]
     assert "sw-source:" in fel.splitlines()[0] and "12 cut" in "".join(fel.splitlines()[:3])

@@ -20,8 +20,8 @@ from beamplan.report.document import csv_text, rounded
 from beamplan.report.terminal import titled_table
 from beamplan.units import format_power
 
-__all__ = ["cases_csv", "cases_document", "cases_renderable", "sweep_csv", "sweep_document",
-           "sweep_renderable", "to_json"]
+__all__ = ["cases_csv", "cases_document", "cases_renderable", "search_words", "sweep_csv",
+           "sweep_document", "sweep_renderable", "to_json"]
 
 CASES_FORMAT = "beamplan-cases/1"
 OUTAGES_FORMAT = "beamplan-outages/1"
@@ -145,8 +145,19 @@ def cases_csv(comparison: Comparison) -> dict[str, str]:
     return {"cases.csv": summary, "scanners.csv": scanners}
 
 
-def _search_words(report: SweepReport) -> str:
-    """How corrective switching searched, in words."""
+def search_words(report: SweepReport) -> str:
+    """How corrective switching searched and what it found, in words (terminal and HTML).
+
+    Examples
+    --------
+    >>> from beamplan.analyses.outages import run_sweep
+    >>> from beamplan.layout.loader import load_layout
+    >>> from beamplan.network.graph import build_network
+    >>> net = build_network(load_layout("layouts/two-bay.yaml"))
+    >>> search_words(run_sweep(net, [("fel-main",), ("an-fold",)]))
+    'sw-source (2 inputs): every combination of positions tried (2 in all), for each \
+outage that leaves a scanner worse off; 1 outage(s) better after switching'
+    """
     count = 1
     for inputs in report.switches.values():
         count *= len(inputs)
@@ -157,8 +168,8 @@ def _search_words(report: SweepReport) -> str:
         how = (f"greedy search ({count} combinations, more than {EXHAUSTIVE_MAX}): one switch "
                "at a time, the best move first, until no move helps")
     moved = sum(1 for r in report.results if r.moves)
-    return (f"Corrective switching ({names}): {how}, for each outage that leaves a scanner "
-            f"worse off; {moved} outage(s) are better after switching.")
+    return (f"{names}: {how}, for each outage that leaves a scanner worse off; {moved} "
+            "outage(s) better after switching")
 
 
 def _cut(names: tuple[str, ...], switching: bool) -> str:
@@ -201,7 +212,7 @@ def sweep_renderable(report: SweepReport, top: int = 20) -> Group:
     if len(report.results) > top:
         parts.append(Text(f"... {len(report.results) - top} more in the JSON/CSV output"))
     if switching:
-        parts.append(Text(_search_words(report)))
+        parts.append(Text(f"Corrective switching, {search_words(report)}."))
     title = ("Single points of failure after switching (dominators in the beam graph, any "
              "switch position)" if switching else
              "Single points of failure (dominators in the beam graph)")

@@ -19,6 +19,7 @@ from beamplan.analyses.compare import CaseOutcome, Comparison
 from beamplan.analyses.outages import SweepReport
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan, ScannerResult
+from beamplan.report.analyses import search_words
 from beamplan.report.html import facts, figure, inline_svg, page, pct, table
 from beamplan.report.plots import headroom_across_cases, outage_impact
 from beamplan.units import format_power
@@ -262,19 +263,6 @@ def _outages_table(report: SweepReport) -> str:
     return f'<div class="scroll">\n{listed}\n</div>'
 
 
-def _search(report: SweepReport) -> str:
-    count = 1
-    for inputs in report.switches.values():
-        count *= len(inputs)
-    how = (f"every combination of positions tried ({count} in all)"
-           if report.switch_search == "exhaustive" else
-           f"greedy search ({count} combinations): one switch at a time, the best move first, "
-           "until no move helps")
-    moved = sum(1 for r in report.results if r.moves)
-    return (f"{', '.join(report.switches)}: {how}, for each outage that leaves a scanner "
-            f"worse off; {moved} outage(s) better after switching")
-
-
 def _spof(report: SweepReport, network: Network) -> str:
     rescued = [n for n in report.single_points_at_failure if n not in report.single_points]
     note = ""
@@ -366,7 +354,7 @@ def sweep_html(report: SweepReport, network: Network, *, layout_path: str, versi
                ("cut a scanner off", f"{len(cut)} case(s)"),
                ("leave a scanner short", f"{sum(1 for r in report.results if r.short)} "
                                          "case(s)"),
-               *([("corrective switching", _search(report))] if report.switches else []),
+               *([("corrective switching", search_words(report))] if report.switches else []),
                ("single points of failure", ", ".join(report.single_points) or "none"),
                ("cross-check", "disagrees" if report.disagreements else "agrees")]
     chart = inline_svg(outage_impact(report, top), "outages", "headroom lost per outage case")
