@@ -355,7 +355,8 @@ def sweep_html(report: SweepReport, network: Network, *, layout_path: str, versi
                ("leave a scanner short", f"{sum(1 for r in report.results if r.short)} "
                                          "case(s)"),
                *([("corrective switching", search_words(report))] if report.switches else []),
-               ("single points of failure", ", ".join(report.single_points) or "none"),
+               ("single points of failure" + (" after switching" if report.switches else ""),
+                ", ".join(report.single_points) or "none"),
                ("cross-check", "disagrees" if report.disagreements else "agrees")]
     chart = inline_svg(outage_impact(report, top), "outages", "headroom lost per outage case")
     shown = min(top, report.finished)
