@@ -119,17 +119,24 @@ def test_settings_stability_moves_nothing_when_the_base_settings_serve() -> None
 
 
 def test_settings_stability_moves_only_the_knob_that_must_move() -> None:
-    # litho-p1's max_power drops from 1.4 kW to 1 kW. A free re-plan retunes both
-    # splitters; but the only knob that must move is the attenuator a1 in
+    # litho-p1's max_power drops from 1.4 kW to 1 kW. The plain re-plan retunes both
+    # splitters to send the 400 W freed to litho-p3 (1.99 kW -> 2.39 kW). With a
+    # tolerance of 20 % litho-p3 may stay near its base 1.99 kW (17 % below the
+    # plain case), so the only knob that must move is the attenuator a1 in
     # litho-p1's own branch (hand reasoning: turning it down keeps every other
-    # ratio and caps litho-p1 at 1 kW).
+    # ratio and caps litho-p1 at 1 kW). With no tolerance, litho-p3 must get its
+    # plain-case power, which takes the splitters.
     base, doc = _base()
     cases = _cases("format: 1\ncases:\n  c: {changes: [{set: {litho-p1.max_power: 1 kW}}]}\n")
     free = compare_cases(base, cases, base_doc=doc).cases[0]
-    steady = compare_cases(base, cases, base_doc=doc, steady=0.0).cases[0]
+    loose = compare_cases(base, cases, base_doc=doc, steady=0.2).cases[0]
+    tight = compare_cases(base, cases, base_doc=doc, steady=0.0).cases[0]
     assert {m.element for m in free.moves} >= {"t1", "t2"}
-    assert {m.element for m in steady.moves} == {"a1"}
-    assert steady.plan.headroom_factor == pytest.approx(free.plan.headroom_factor, rel=1e-6)
+    assert {m.element for m in loose.moves} == {"a1"}
+    assert {m.element for m in tight.moves} >= {"t1", "t2"}
+    assert loose.plan.headroom_factor == pytest.approx(free.plan.headroom_factor, rel=1e-6)
+    for s, f in zip(loose.plan.scanners, free.plan.scanners, strict=True):
+        assert s.delivered_w >= 0.8 * f.delivered_w * (1 - 1e-6), s.id
 
 
 @settings(max_examples=20, deadline=None, derandomize=True, database=None,
@@ -202,3 +209,91 @@ def test_cli_sweep(capsys: pytest.CaptureFixture[str]) -> None:
     out = capsys.readouterr().out
     assert code == 0 and "t1" in out and "Single points of failure" in out
     assert main(["sweep", PILOT, "--only", "zz"]) == 2
+
+
+TWO_BAY = "layouts/two-bay.yaml"
+
+
+def _two_bay():  # type: ignore[no-untyped-def]
+    doc = load_yaml(TWO_BAY)
+    return parse_layout(doc), doc
+
+
+@pytest.mark.parametrize("value", ["sb-drift", "fel-standby"])
+def test_a_switch_set_to_the_standby_input_plans_with_the_standby_source(value: str) -> None:
+    # two-bay: with fel-main failed and sw-source on the standby line, every
+    # scanner is served by fel-standby alone (4 kW, layout file), which is then
+    # fully drawn: 12 scanners need 5.06 kW at IF and the path gain is below 0.8
+    # (hand reading of the layout), so every scanner is short but none cut off.
+    base, doc = _two_bay()
+    cases = _cases("format: 1\ncases:\n  standby:\n    changes:\n      - fail: fel-main\n"
+                   f"      - set: {{sw-source.select: {value}}}\n"
+                   "  no-switch: {changes: [{fail: fel-main}]}\n")
+    comparison = compare_cases(base, cases, base_doc=doc)
+    plans = {c.name: c.plan for c in comparison.cases}
+    standby = plans["standby"]
+    used = {s.id: s.output_w for s in standby.sources}
+    assert used["fel-main"] == 0.0
+    assert used["fel-standby"] == pytest.approx(4000.0, rel=1e-6)
+    assert all(0.0 < s.delivered_w < s.need_w for s in standby.scanners)
+    assert all(s.delivered_w == 0.0 for s in plans["no-switch"].scanners)  # at failure
+
+
+def test_the_same_switch_move_made_by_hand_in_the_layout(tmp_path: pathlib.Path) -> None:
+    # Reference: the layout file edited by hand (select: sb-drift) and planned.
+    base, doc = _two_bay()
+    cases = _cases("format: 1\ncases:\n  c: {changes: [{set: {sw-source.select: sb-drift}}]}\n")
+    case = compare_cases(base, cases, base_doc=doc).cases[0].plan
+    text = pathlib.Path(TWO_BAY).read_text().replace("select: src-tunnel}", "select: sb-drift}")
+    edited = tmp_path / "edited.yaml"
+    edited.write_text(text)
+    by_hand = beamplan.plan(str(edited))
+    assert case.headroom_factor == pytest.approx(by_hand.headroom_factor, rel=1e-9)
+    for a, b in zip(case.scanners, by_hand.scanners, strict=True):
+        assert a.delivered_w == pytest.approx(b.delivered_w, rel=1e-9)
+
+
+@pytest.mark.parametrize(("change", "fragment"), [
+    ("{set: {sw-source.select: sb-drif}}",
+     "'sb-drif' is not an input of switch 'sw-source'; did you mean 'sb-drift'? the inputs "
+     "are: src-tunnel (from fel-main), sb-drift (from fel-standby)"),
+    ("{set: {sw-source.select: an-fold}}", "the inputs are: src-tunnel (from fel-main)"),
+    ("{scale: {sw-source.select: 2}}", "names an input and cannot be scaled"),
+    ("{set: {an-fold.select: sb-drift}}", "'select' applies to switches only; 'an-fold' is a "
+     "mirror"),
+])
+def test_a_bad_switch_position_is_one_located_error(change: str, fragment: str) -> None:
+    base, doc = _two_bay()
+    with pytest.raises(LayoutError) as info:
+        compare_cases(base, _cases(f"format: 1\ncases:\n  c:\n    changes:\n      - {change}\n"),
+                      base_doc=doc)
+    [error] = info.value.errors
+    assert fragment in error.format(), error.format()
+    assert error.location is not None and (error.location.file, error.location.line) == (
+        "cases.yaml", 5)
+
+
+def test_cli_sets_a_switch(capsys: pytest.CaptureFixture[str]) -> None:
+    code = main(["cases", TWO_BAY, "--fail", "fel-main", "--set", "sw-source.select=sb-drift",
+                 "--json", "-"])
+    doc = json.loads(capsys.readouterr().out)
+    assert code == 3  # 4 kW cannot meet 5.06 kW of need (hand sum of the layout's needs)
+    assert doc["cases"][0]["source_used_w"] == pytest.approx(4000.0, rel=1e-6)
+    code = main(["cases", TWO_BAY, "--set", "sw-source.select=nowhere"])
+    err = capsys.readouterr().err
+    assert code == 1 and "<command line>:" in err and "the inputs are: src-tunnel" in err
+
+
+def test_the_shipped_case_file_of_the_docs_plans() -> None:
+    # docs/cases.md shows layouts/cases/two-bay-cases.yaml; each case must apply
+    # to the two-bay demo (hand reading: litho-b7 joins, standby-day runs on the
+    # 4 kW standby FEL).
+    base, doc = _two_bay()
+    cases = parse_cases(load_yaml("layouts/cases/two-bay-cases.yaml"))
+    plans = {c.name: c.plan for c in compare_cases(base, cases, base_doc=doc).cases}
+    assert set(plans) == {"bay-b-grows", "trunk-fold-ages", "b-service", "worst-day",
+                          "standby-day"}
+    assert plans["bay-b-grows"].scanner("litho-b7").delivered_w > 0
+    assert plans["worst-day"].scanner("litho-a1").status == "cut off"
+    used = {s.id: s.output_w for s in plans["standby-day"].sources}
+    assert used["fel-main"] == 0.0 and used["fel-standby"] == pytest.approx(4000.0, rel=1e-6)

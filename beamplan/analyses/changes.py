@@ -12,6 +12,7 @@ layout. Changes:
   the scanner, its next output continuing the line, any others dumped;
 * ``set: {ID.KEY: VALUE, ...}`` and ``scale: {ID.KEY: FACTOR, ...}``: change a
   numeric property of a source, element or scanner (see :data:`SETTABLE`);
+  ``set: {SWITCH.select: INPUT}`` moves a switch to another of its inputs;
 * ``fail: ID`` (or a list): take sources, elements or scanners out of service;
 * ``include: CASE``: apply another case's changes first.
 
@@ -34,9 +35,10 @@ from beamplan.layout.model import (
     ScannerSpec,
     SourceSpec,
     SplitterSpec,
+    SwitchSpec,
 )
 
-__all__ = ["SETTABLE", "Change", "ChangeError", "apply_change"]
+__all__ = ["SETTABLE", "Change", "ChangeError", "apply_change", "switch_inputs"]
 
 # Settable keys: the layout key -> (spec field, dimension). Scaling a computed
 # reflectivity or transmission scales the element's derate factor instead.
@@ -47,7 +49,7 @@ SETTABLE: dict[str, dict[str, tuple[str, str]]] = {
                 "transmission": ("transmission", "fraction"),
                 "efficiency": ("efficiency", "fraction"),
                 "grazing": ("grazing_rad", "angle"), "incidence": ("incidence_rad", "angle"),
-                "roughness": ("roughness_m", "length")},
+                "roughness": ("roughness_m", "length"), "select": ("select", "input")},
     "scanner": {"power": ("need_w", "power"), "max_power": ("max_w", "power"),
                 "dose": ("dose_j_m2", "dose"), "wph": ("wafers_per_hour", "rate")},
 }
@@ -181,6 +183,9 @@ def _set_or_scale(layout: Layout, change: Change, scale: bool) -> Layout:
         raise ChangeError(change, "expected a mapping such as {fel-1.power: 9 kW}")
     for dotted, raw in change.argument.items():
         item, group, key = _target(layout, change, dotted)
+        if key == "select":
+            layout = _replace_item(layout, _select(layout, change, item, dotted, raw, scale))
+            continue
         field_name, dimension = SETTABLE[group][key]
         computed = (isinstance(item, MirrorSpec) and key == "reflectivity"
                     and item.reflectivity is None) or (
@@ -203,6 +208,55 @@ def _set_or_scale(layout: Layout, change: Change, scale: bool) -> Layout:
                               f"({getattr(item, 'kind', group)})") from None
         layout = _replace_item(layout, updated)
     return layout
+
+
+def switch_inputs(layout: Layout, switch_id: str) -> dict[str, tuple[str, ...]]:
+    """Each input of a switch (the element that feeds it) and the sources behind it.
+
+    Examples
+    --------
+    >>> from beamplan.layout.loader import load_layout
+    >>> switch_inputs(load_layout("layouts/two-bay.yaml"), "sw-source")
+    {'src-tunnel': ('fel-main',), 'sb-drift': ('fel-standby',)}
+    """
+    feeding: dict[str, list[str]] = {}
+    for link in layout.links:
+        feeding.setdefault(link.head, []).append(link.tail)
+    sources = {s.id for s in layout.sources}
+    out = {}
+    for tail in feeding.get(switch_id, []):
+        seen, stack = {tail}, [tail]
+        while stack:
+            for up in feeding.get(stack.pop(), []):
+                if up not in seen:
+                    seen.add(up)
+                    stack.append(up)
+        out[tail] = tuple(s.id for s in layout.sources if s.id in seen and s.id in sources)
+    return out
+
+
+def _select(layout: Layout, change: Change, item: Any, dotted: str, raw: Any,
+            scale: bool) -> Any:
+    """The switch with its ``select`` moved to another input (or the input behind a source)."""
+    if not isinstance(item, SwitchSpec):
+        raise ChangeError(change, f"'select' applies to switches only; '{item.id}' is a "
+                          f"{getattr(item, 'kind', 'node')}")
+    inputs = switch_inputs(layout, item.id)
+    choices = ", ".join(f"{tail} (from {' and '.join(src) or 'no source'})"
+                        for tail, src in inputs.items())
+    if scale:
+        raise ChangeError(change, f"'{dotted}' names an input and cannot be scaled",
+                          f"write 'set: {{{dotted}: INPUT}}'; the inputs are: {choices}")
+    value = str(raw).strip()
+    behind = [tail for tail, src in inputs.items() if value in src]
+    if value not in inputs and len(behind) == 1:
+        value = behind[0]  # a source named: the input it feeds
+    if value not in inputs:
+        hint = did_you_mean(value, list(inputs))
+        raise ChangeError(change, f"'{dotted}': '{value}' is not an input of switch "
+                          f"'{item.id}'", (hint + " " if hint else "") +
+                          f"the inputs are: {choices}")
+    return replace(item, select=value, select_location=change.location)
 
 
 def _replace_item(layout: Layout, item: Any) -> Layout:

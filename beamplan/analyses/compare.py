@@ -2,14 +2,17 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections.abc import Collection
+from dataclasses import dataclass, replace
 
 from beamplan.analyses.cases import Case, build_case, case_diagnostics
+from beamplan.analyses.switching import SwitchMove, best_positions
 from beamplan.errors import Diagnostic, LayoutError
 from beamplan.layout.model import Layout
 from beamplan.layout.yamlpos import YamlDocument
-from beamplan.network.graph import build_network
-from beamplan.optimise.planner import plan_network
+from beamplan.network.behaviour import Behaviour
+from beamplan.network.graph import Network, build_network
+from beamplan.optimise.planner import MET_RTOL, plan_network
 from beamplan.optimise.result import Plan
 
 __all__ = ["CaseOutcome", "Comparison", "SettingMove", "compare_cases", "settings_moves"]
@@ -42,6 +45,7 @@ class CaseOutcome:
     newly_binding: tuple[str, ...]
     moves: tuple[SettingMove, ...]
     best_factor: float | None = None  # with settings stability: the best factor it was held near
+    switch_moves: tuple[SwitchMove, ...] = ()  # with --steady-switches: switches moved
 
 
 @dataclass(frozen=True)
@@ -53,6 +57,7 @@ class Comparison:
     base: Plan
     cases: tuple[CaseOutcome, ...]
     steady: float | None = None
+    steady_switches: bool = False
 
     @property
     def scanner_ids(self) -> tuple[str, ...]:
@@ -71,8 +76,12 @@ def _flat(setting: object) -> dict[str | None, float]:
     return {}
 
 
-def settings_moves(base: Plan, case: Plan) -> tuple[SettingMove, ...]:
+def settings_moves(base: Plan, case: Plan, out_of_service: Collection[str] = ()
+                   ) -> tuple[SettingMove, ...]:
     """The settings of ``case`` that differ from those of ``base`` (elements in both).
+
+    Elements idle in the case, or listed in ``out_of_service``, have no setting
+    that matters and are left out.
 
     Examples
     --------
@@ -84,7 +93,7 @@ def settings_moves(base: Plan, case: Plan) -> tuple[SettingMove, ...]:
     before = {e.id: _flat(e.setting) for e in base.elements}
     moves = []
     for element in case.elements:
-        if element.incident_w <= 0.0:
+        if element.incident_w <= 0.0 or element.id in out_of_service:
             continue  # an idle element's setting does not matter
         old = before.get(element.id, {})
         for output, value in _flat(element.setting).items():
@@ -93,17 +102,53 @@ def settings_moves(base: Plan, case: Plan) -> tuple[SettingMove, ...]:
     return tuple(moves)
 
 
+def _service(plan: Plan) -> tuple[int, int, float, float]:
+    """Smaller is better: fewer cut off, fewer short, a higher lowest factor of the
+    scanners still served, more power delivered (rounded against round-off)."""
+    serving = [s for s in plan.scanners if s.status != "out of service"]
+    cut = [s for s in serving if s.status == "cut off"]
+    short = [s for s in serving if s.delivered_w < s.need_w * (1 - MET_RTOL)]
+    served = min((s.delivered_w / s.need_w for s in serving if s not in cut), default=0.0)
+    return (len(cut), len(short), -round(served, 7), -round(plan.delivered_w, 3))
+
+
+def _switched_network(network: Network, goal: str, solver: str
+                      ) -> tuple[Network, tuple[SwitchMove, ...]]:
+    """The case with its switches where they restore the most service (fewest moves)."""
+    switches = {n.id: tuple(link.tail for link in network.in_links[n.id])
+                for n in network.elements
+                if n.behaviour is Behaviour.COMBINE and n.select is not None and n.in_service}
+    if not switches:
+        return network, ()
+    current = {sid: str(network.node[sid].select) for sid in switches}
+
+    def moved(positions: dict[str, str]) -> Network:
+        return network.with_nodes({sid: replace(network.node[sid], select=sel)
+                                   for sid, sel in positions.items()})
+
+    _, moves = best_positions(switches, current, lambda p: plan_network(moved(p), goal, solver),
+                              _service, plan_network(network, goal, solver))[:2]
+    return moved({**current, **{m.switch: m.after for m in moves}}), moves
+
+
 def compare_cases(base: Layout, cases: dict[str, Case], *, goal: str = "headroom",
                   base_doc: YamlDocument | None = None, steady: float | None = None,
-                  solver: str = "auto", names: list[str] | None = None) -> Comparison:
+                  solver: str = "auto", names: list[str] | None = None,
+                  steady_switches: bool = False) -> Comparison:
     """Plan ``base`` and each case with the same goal.
 
     Parameters
     ----------
     steady
-        When given, the settings-stability tolerance: each case is planned to
-        within this fraction of its best headroom factor while moving the base
-        settings as little as possible (goal ``headroom`` only).
+        When given, the settings-stability tolerance: each scanner is served at
+        least (1 − steady) × its level in the plain plan of the case, while the
+        base settings move as little as possible (goal ``headroom`` only).
+    steady_switches
+        With ``steady``: switches may move too, but only to positions that
+        serve strictly better (fewer scanners cut off, then fewer short, then a
+        higher lowest factor, then more power); of equally good positions the
+        one with the fewest moves. Without it switches stay where the case puts
+        them.
 
     Raises
     ------
@@ -125,13 +170,19 @@ def compare_cases(base: Layout, cases: dict[str, Case], *, goal: str = "headroom
     outcomes = []
     for name, network in networks.items():
         best = None
+        switch_moves: tuple[SwitchMove, ...] = ()
         if steady is not None:
             from beamplan.optimise.steady import steady_plan
 
+            if steady_switches:
+                network, switch_moves = _switched_network(network, goal, solver)
             plan, best = steady_plan(network, base_settings, tolerance=steady, solver=solver)
         else:
             plan = plan_network(network, goal, solver)
         newly = tuple(b.description for b in plan.binding if b.description not in base_binding)
+        failed = {n.id for n in network.nodes if not n.in_service}
         outcomes.append(CaseOutcome(name, cases[name].note, plan, newly,
-                                    settings_moves(base_plan, plan), best))
-    return Comparison(base.name, goal, base_plan, tuple(outcomes), steady)
+                                    settings_moves(base_plan, plan, failed), best,
+                                    switch_moves))
+    return Comparison(base.name, goal, base_plan, tuple(outcomes), steady,
+                      steady_switches and steady is not None)

@@ -4,6 +4,13 @@ Each case is re-planned on one live model per worker (the LP is built once
 and edited in place, see :class:`beamplan.optimise.live.LiveModel`). The
 engine runs in process, or on any :class:`concurrent.futures.Executor`
 (processes by default), so a distributed executor can be plugged in.
+
+Each outage has two views. **At failure**: re-planned with every switch where
+it was. **After switching**: when the layout has switches (with ``select``)
+and the outage leaves some scanner worse off, the switch positions that
+restore the most service are searched (:mod:`beamplan.analyses.switching`)
+and the case is planned again with them; the moves are kept. Outages are
+ranked by the view after switching.
 """
 
 from __future__ import annotations
@@ -13,23 +20,22 @@ from collections.abc import Callable, Iterable, Sequence
 from concurrent.futures import Executor, Future
 from dataclasses import dataclass, field
 
+from beamplan.analyses.switching import SwitchMove, best_positions, search_kind
 from beamplan.network.dominators import single_points_of_failure
 from beamplan.network.graph import Network
 from beamplan.optimise.live import CaseSummary, LiveModel
 from beamplan.optimise.planner import MET_RTOL
 from beamplan.optimise.result import Plan
 
-__all__ = ["OutageResult", "SweepReport", "outage_cases", "run_sweep"]
+__all__ = ["OutageResult", "OutageView", "SweepReport", "outage_cases", "run_sweep"]
 
 LOST_RTOL = 1e-6
 
 
 @dataclass(frozen=True)
-class OutageResult:
-    """The impact of one outage case (one or two nodes out of service)."""
+class OutageView:
+    """The impact of an outage with the switches in one set of positions."""
 
-    failed: tuple[str, ...]
-    kinds: tuple[str, ...]
     headroom_factor: float
     headroom_lost: float
     source_used_w: float
@@ -39,11 +45,75 @@ class OutageResult:
     short: tuple[tuple[str, float], ...]  # (scanner, shortfall W)
     cut_off: tuple[str, ...]
     status: str
+    served_factor: float = 0.0  # the lowest factor of the scanners not cut off
+
+
+@dataclass(frozen=True)
+class OutageResult:
+    """The impact of one outage case (one or two nodes out of service), in both views.
+
+    ``after`` is the view after corrective switching, ``at_failure`` the view
+    with every switch where it was; they are the same object when no switch
+    moved. The attributes of the view (``headroom_factor``, ``cut_off``, ...)
+    read from ``after``. ``tried`` counts the switch positions planned.
+    """
+
+    failed: tuple[str, ...]
+    kinds: tuple[str, ...]
+    after: OutageView
+    at_failure: OutageView
+    moves: tuple[SwitchMove, ...] = ()
+    tried: int = 0
 
     @property
     def label(self) -> str:
         """The case as people write it, e.g. ``m2 + t4``."""
         return " + ".join(self.failed)
+
+    @property
+    def headroom_factor(self) -> float:
+        """The lowest factor delivered ÷ need after switching."""
+        return self.after.headroom_factor
+
+    @property
+    def headroom_lost(self) -> float:
+        """Base lowest factor minus this one, after switching."""
+        return self.after.headroom_lost
+
+    @property
+    def source_used_w(self) -> float:
+        """Source power drawn after switching (W)."""
+        return self.after.source_used_w
+
+    @property
+    def delivered_w(self) -> float:
+        """Power delivered to scanners after switching (W)."""
+        return self.after.delivered_w
+
+    @property
+    def delivered_lost_w(self) -> float:
+        """Delivered power lost against the base, after switching (W)."""
+        return self.after.delivered_lost_w
+
+    @property
+    def losing(self) -> tuple[tuple[str, float, float], ...]:
+        """(scanner, base W, case W) for every scanner that loses power after switching."""
+        return self.after.losing
+
+    @property
+    def short(self) -> tuple[tuple[str, float], ...]:
+        """(scanner, shortfall W) after switching."""
+        return self.after.short
+
+    @property
+    def cut_off(self) -> tuple[str, ...]:
+        """Scanners that get nothing after switching."""
+        return self.after.cut_off
+
+    @property
+    def status(self) -> str:
+        """``met`` or ``short`` after switching."""
+        return self.after.status
 
 
 @dataclass(frozen=True)
@@ -58,6 +128,9 @@ class SweepReport:
     single_points: dict[str, tuple[str, ...]] = field(default_factory=dict)
     disagreements: tuple[str, ...] = ()
     interrupted: bool = False
+    single_points_at_failure: dict[str, tuple[str, ...]] = field(default_factory=dict)
+    switch_search: str = "none"  # "none", "exhaustive" or "greedy" (analyses.switching)
+    switches: dict[str, tuple[str, ...]] = field(default_factory=dict)
 
     @property
     def finished(self) -> int:
@@ -106,8 +179,7 @@ def outage_cases(network: Network, *, kinds: Sequence[str] = (), ids: Sequence[s
     return list(itertools.combinations(chosen, 2))
 
 
-def _impact(base: CaseSummary, case: CaseSummary, failed: tuple[str, ...],
-            network: Network) -> OutageResult:
+def _impact(base: CaseSummary, case: CaseSummary, network: Network) -> OutageView:
     losing, short, cut = [], [], []
     factor = float("inf")
     for sid, got in case.delivered_w.items():
@@ -121,12 +193,40 @@ def _impact(base: CaseSummary, case: CaseSummary, failed: tuple[str, ...],
         if got <= 1e-9 * node.need_w and was > 0:
             cut.append(sid)
     factor = 0.0 if factor == float("inf") else factor
+    served = min((got / network.node[sid].need_w for sid, got in case.delivered_w.items()
+                  if sid not in cut), default=0.0)
     base_factor = min((got / network.node[sid].need_w for sid, got in base.delivered_w.items()),
                       default=0.0)
     total, base_total = sum(case.delivered_w.values()), sum(base.delivered_w.values())
-    return OutageResult(failed, tuple(network.node[f].kind for f in failed), factor,
-                        base_factor - factor, case.source_used_w, total, base_total - total,
-                        tuple(losing), tuple(short), tuple(cut), "short" if short else "met")
+    return OutageView(factor, base_factor - factor, case.source_used_w, total,
+                      base_total - total, tuple(losing), tuple(short), tuple(cut),
+                      "short" if short else "met", served)
+
+
+def _service_key(view: OutageView) -> tuple[int, int, float, float]:
+    """Smaller is better: fewer cut off, fewer short, a higher lowest factor of the
+    scanners still served, less power lost.
+
+    Rounded, so that round-off does not reorder ties between runs or workers.
+    """
+    return (len(view.cut_off), len(view.short), -round(view.served_factor, 7),
+            round(view.delivered_lost_w, 3))
+
+
+def _switch_back(live: LiveModel, goal: str, base: CaseSummary, failed: tuple[str, ...],
+                 at: OutageView) -> tuple[OutageView, tuple[SwitchMove, ...], int]:
+    """Corrective switching for one outage (inside its ``live.outage`` block)."""
+    network = live.network
+    movable = {s: inputs for s, inputs in live.switches.items() if s not in failed}
+    if not movable or not at.losing:
+        return at, (), 0
+    current = {s: str(network.node[s].select) for s in movable}
+
+    def evaluate(positions: dict[str, str]) -> OutageView:
+        with live.switched(positions):
+            return _impact(base, live.summary(goal), network)
+
+    return best_positions(movable, current, evaluate, _service_key, at)
 
 
 _WORKERS: dict[tuple[str, int, int, str], LiveModel] = {}
@@ -163,8 +263,10 @@ def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[st
     out = []
     for failed in cases:
         with live.outage(failed):
-            summary = live.summary(goal)
-        out.append(_impact(base, summary, failed, network))
+            at = _impact(base, live.summary(goal), network)
+            after, moves, tried = _switch_back(live, goal, base, failed, at)
+        kinds = tuple(network.node[f].kind for f in failed)
+        out.append(OutageResult(failed, kinds, after, at, moves, tried))
     return out
 
 
@@ -174,16 +276,27 @@ def _rank(result: OutageResult) -> tuple[int, int, float, float, str]:
             -round(result.delivered_lost_w, 3), result.label)
 
 
-def _cross_check(results: Iterable[OutageResult], spof: dict[str, tuple[str, ...]]
+def _cross_check(results: Iterable[OutageResult], spof: dict[str, tuple[str, ...]],
+                 spof_at_failure: dict[str, tuple[str, ...]] | None = None
                  ) -> tuple[str, ...]:
+    """Dominators against re-plans (single outages only).
+
+    ``spof`` is checked against the view after switching; ``spof_at_failure``,
+    when the layout has switches, against the view at failure.
+    """
     problems = []
     for r in results:
         if len(r.failed) != 1:
             continue
-        expected = set(spof.get(r.failed[0], ()))
-        if expected != set(r.cut_off):
-            problems.append(f"{r.failed[0]}: dominators say {sorted(expected)}, the re-plan "
-                            f"cuts off {sorted(r.cut_off)}")
+        checks = [(r.after, spof, "")]
+        if spof_at_failure is not None:
+            checks = [(r.after, spof, " (after switching)"),
+                      (r.at_failure, spof_at_failure, " (at failure)")]
+        for view, table, when in checks:
+            expected = set(table.get(r.failed[0], ()))
+            if expected != set(view.cut_off):
+                problems.append(f"{r.failed[0]}{when}: dominators say {sorted(expected)}, "
+                                f"the re-plan cuts off {sorted(view.cut_off)}")
     return tuple(problems)
 
 
@@ -243,7 +356,11 @@ def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str =
                 raise
     except KeyboardInterrupt:
         interrupted = True
-    spof = single_points_of_failure(network)
+    at_failure = single_points_of_failure(network)
+    switches = LiveModel.switches_of(network)
+    spof = single_points_of_failure(network, any_position=True) if switches else at_failure
     ranked = tuple(sorted(results, key=_rank))
     return SweepReport(network.name, base.goal, base, ranked, len(cases), spof,
-                       _cross_check(ranked, spof), interrupted)
+                       _cross_check(ranked, spof, at_failure if switches else None),
+                       interrupted, at_failure,
+                       search_kind(switches), switches)

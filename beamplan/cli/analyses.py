@@ -83,9 +83,11 @@ def _cases(args: argparse.Namespace) -> int:
                              f"{', '.join(cases)}")
     if args.steady is not None and args.goal != "headroom":
         raise UsageError("--steady works with --goal headroom")
+    if args.steady_switches and args.steady is None:
+        raise UsageError("--steady-switches works with --steady")
     comparison = compare_cases(base, cases, goal=args.goal, base_doc=base_doc,
                                steady=args.steady, solver=args.solver,
-                               names=args.only or None)
+                               names=args.only or None, steady_switches=args.steady_switches)
     _outputs(args, "cases", comparison)
     short = any(c.plan.status == "short" for c in comparison.cases)
     return int(ExitCode.SHORT if short else ExitCode.OK)
@@ -197,8 +199,13 @@ def register(sub: Any) -> None:
                        help="add a scanner at a free splitter output (or behind=E part=P)")
     cases.add_argument("--only", action="append", metavar="CASE", help="plan only this case")
     cases.add_argument("--steady", nargs="?", type=float, const=0.0, metavar="TOL",
-                       help="settings stability: stay within TOL (default 0) of each case's "
-                       "best headroom while moving the base settings as little as possible")
+                       help="settings stability: serve each scanner at least (1 - TOL) of "
+                       "its level in the plain case (default TOL 0) while moving the base "
+                       "settings as little as possible")
+    cases.add_argument("--steady-switches", action="store_true",
+                       help="with --steady: switches may move too, only to positions that "
+                       "restore service (fewest moves); without it they stay where the case "
+                       "puts them")
     _common(cases)
     cases.set_defaults(handler=_cases)
 

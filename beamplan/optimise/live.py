@@ -4,13 +4,16 @@
 An outage is applied by changing coefficients and right-hand sides so that
 the LP is exactly the one :func:`beamplan.network.behaviour.out_of_service`
 would give if the network were rebuilt; a test checks that the two agree.
+A switch position is applied the way the LP builder writes ``select``: the
+columns of the links from the inputs it does not select get an upper bound
+of 0 (:meth:`LiveModel.switched`), again checked against a rebuilt layout.
 """
 
 from __future__ import annotations
 
 import contextlib
-from collections.abc import Iterable, Iterator
-from dataclasses import dataclass
+from collections.abc import Iterable, Iterator, Mapping
+from dataclasses import dataclass, replace
 
 from beamplan.network.behaviour import Behaviour, Node, out_of_service
 from beamplan.network.graph import Link, Network
@@ -62,6 +65,15 @@ class LiveModel:
         self._rows: dict[str, list[int]] = {}
         for index, info in enumerate(self.model.row_info):
             self._rows.setdefault(info.node, []).append(index)
+        self.switches = self.switches_of(network)
+        self._failed: set[str] = set()
+
+    @staticmethod
+    def switches_of(network: Network) -> dict[str, tuple[str, ...]]:
+        """Every switch with a ``select`` (a knob with positions) and its inputs, in order."""
+        return {n.id: tuple(link.tail for link in network.in_links[n.id])
+                for n in network.elements
+                if n.behaviour is Behaviour.COMBINE and n.select is not None}
 
     def plan(self, goal: str = "headroom") -> Plan:
         """Solve ``goal`` for the network as it stands (with any outage applied)."""
@@ -160,18 +172,69 @@ class LiveModel:
             return set(self._dominated.get(node_id, ())) | self._base_cut
         return self._search(failed)
 
-    def _search(self, failed: set[str]) -> set[str]:
-        """Scanners that no source in service reaches once ``failed`` are out (a search)."""
+    def _search(self, failed: set[str], positions: Mapping[str, str] | None = None
+                ) -> set[str]:
+        """Scanners that no source in service reaches once ``failed`` are out (a search).
+
+        A switch passes only the input it selects (``positions`` overrides the layout's).
+        """
         net = self.network
+        select = {sid: net.node[sid].select for sid in self.switches}
+        select.update(positions or {})
         seen = {n.id for n in net.sources if n.in_service and n.available_w > 0
                 and n.id not in failed}
         stack = list(seen)
         while stack:
-            for head in self._succ.get(stack.pop(), ()):
-                if head not in seen and head not in failed and net.node[head].in_service:
-                    seen.add(head)
-                    stack.append(head)
+            tail = stack.pop()
+            for head in self._succ.get(tail, ()):
+                if head in seen or head in failed or not net.node[head].in_service:
+                    continue
+                if select.get(head, tail) != tail:
+                    continue  # a switch set to another input
+                seen.add(head)
+                stack.append(head)
         return {s.id for s in net.scanners if s.id not in seen}
+
+    def _select_bounds(self, switch_id: str, selected: str) -> None:
+        """Open the link from the selected input, close the others (upper bound 0)."""
+        for link in self.network.in_links[switch_id]:
+            high = INF if link.tail == selected else 0.0
+            self.backend.set_bounds(self.model.link_col[link.index], 0.0, high)
+
+    @contextlib.contextmanager
+    def switched(self, positions: Mapping[str, str]) -> Iterator[Network]:
+        """Set switches to other inputs (``{switch: input}``) for the ``with`` block.
+
+        It may be nested inside :meth:`outage`; the scanners that no source
+        reaches are found again for the new positions.
+
+        Examples
+        --------
+        >>> from beamplan.layout.loader import load_layout
+        >>> from beamplan.network.graph import build_network
+        >>> live = LiveModel(build_network(load_layout("layouts/two-bay.yaml")))
+        >>> live.switches
+        {'sw-source': ('src-tunnel', 'sb-drift')}
+        >>> with live.outage(["fel-main"]), live.switched({"sw-source": "sb-drift"}):
+        ...     round(live.summary().source_used_w)
+        4000
+        """
+        for switch_id, selected in positions.items():
+            if selected not in self.switches.get(switch_id, ()):
+                raise ValueError(f"'{selected}' is not an input of switch '{switch_id}'")
+        before_network, before_cut = self.model.network, self.model.unreachable
+        changed = {sid: replace(before_network.node[sid], select=sel)
+                   for sid, sel in positions.items()}
+        for switch_id, selected in positions.items():
+            self._select_bounds(switch_id, selected)
+        self.model.network = before_network.with_nodes(changed)
+        self.model.unreachable = self._search(self._failed, positions)
+        try:
+            yield self.model.network
+        finally:
+            for switch_id in positions:
+                self._select_bounds(switch_id, str(self.network.node[switch_id].select))
+            self.model.network, self.model.unreachable = before_network, before_cut
 
     @contextlib.contextmanager
     def outage(self, node_ids: Iterable[str]) -> Iterator[Network]:
@@ -187,12 +250,14 @@ class LiveModel:
                     self._dead.update(link.index for link in self._after(node.id))
         self.model.network = case_network
         self.model.unreachable = self._cut_off(set(ids))
+        self._failed = set(ids)
         try:
             yield case_network
         finally:
             self.model.network = self.network
             self.model.unreachable = set()
             self._dead = set()
+            self._failed = set()
             for node in originals:
                 if node.in_service:
                     self._set_service(node, True)

@@ -1,7 +1,8 @@
 """Settings stability: reach (nearly) the best headroom while moving as few settings as possible.
 
-After a case's best common headroom factor t* is known, this LP holds every
-scanner at ≥ (1 − tolerance) · t* · need and minimises the total movement of
+After the case is planned with the headroom goal, which gives each scanner
+in service its own level L_i (delivered ÷ need; t* is the lowest), this LP
+holds every scanner at ≥ (1 − tolerance) · L_i · need_i and minimises the total movement of
 the splitter shares and attenuator outputs away from the base plan's
 settings, measured in watts: Σ |s_k − f_k^base · in| over splitter outputs
 and Σ |out − τ^base · in| over attenuators (each absolute value as two rows
@@ -18,7 +19,7 @@ import numpy as np
 
 from beamplan.network.behaviour import Behaviour
 from beamplan.network.graph import Network
-from beamplan.optimise.backend import INF, make_backend
+from beamplan.optimise.backend import make_backend
 from beamplan.optimise.goals import GoalOutcome, run_goal
 from beamplan.optimise.lp import LpModel, Row, build_lp
 from beamplan.optimise.planner import finish_plan
@@ -35,8 +36,8 @@ def _deviation_rows(model: LpModel, base: Mapping[str, Setting]) -> list[int]:
     columns: list[int] = []
     for i, node in enumerate(net.elements):
         setting = base.get(node.id)
-        if setting is None:
-            continue
+        if setting is None or not node.in_service:
+            continue  # a failed element has no setting to keep: it passes nothing
         inflow = model.inflow(node.id)
         pairs: list[tuple[str | None, Any, float]] = []
         if node.behaviour is Behaviour.SPLIT and isinstance(setting, tuple):
@@ -61,7 +62,15 @@ def steady_plan(network: Network, base_settings: Mapping[str, Setting], *,
                 tolerance: float = 0.0, solver: str = "auto") -> tuple[Plan, float]:
     """Plan ``network`` near its best headroom, moving the base settings as little as possible.
 
-    Returns the plan and the best common factor t* that it was held near.
+    First the case is planned with the ``headroom`` goal (progressive
+    filling), which gives every scanner in service its own level L_i (the
+    lowest of them is the case's best common factor t*). Then every scanner
+    is held at ≥ (1 − tolerance) · L_i · need_i while the total movement of
+    the settings away from ``base_settings`` is minimised. Holding each
+    scanner at its own level, not all of them at t*, is what keeps a case
+    with a scanner cut off (t* = 0) from turning the whole fab off.
+
+    Returns the plan and t*.
 
     Examples
     --------
@@ -74,19 +83,21 @@ def steady_plan(network: Network, base_settings: Mapping[str, Setting], *,
     >>> plan.headroom_factor >= best * (1 - 1e-6)
     True
     """
-    best_model = build_lp(network)
-    best = run_goal(best_model, make_backend(best_model, solver), "headroom").primary_value
     model = build_lp(network)
     deviations = _deviation_rows(model, base_settings)
     backend = make_backend(model, solver)
-    run_goal(model, backend, "headroom")  # sets every demand row; we then fix the factor
-    floor = max(best * (1.0 - tolerance) * (1.0 - backend.freeze_slack), 0.0)
+    # The plain plan's levels; the deviation columns cost nothing in this goal.
+    plain = run_goal(model, backend, "headroom")
+    keep = (1.0 - tolerance) * (1.0 - backend.freeze_slack)
     for node in network.scanners:
         row = model.demand_row[node.id]
-        if node.in_service:
-            backend.set_coefficient(row, model.factor_col, -node.need_w)
+        level = plain.levels.get(node.id)
+        backend.set_coefficient(row, model.factor_col, 0.0)
+        if level is None:  # out of service: no demand
             backend.set_rhs(row, 0.0)
-    backend.set_bounds(model.factor_col, floor, INF)
+            continue
+        backend.set_rhs(row, max(keep * level * node.need_w - backend.freeze_abs_w, 0.0))
+    backend.set_bounds(model.factor_col, 0.0, 0.0)
     costs = {col: 1.0 for col in deviations}
     costs.update({col: SOURCE_WEIGHT for col in model.source_col.values()})
     backend.set_objective(costs)
@@ -95,6 +106,7 @@ def steady_plan(network: Network, base_settings: Mapping[str, Setting], *,
         from beamplan.errors import InternalError
 
         raise InternalError(f"the settings-stability LP ended {solution.status}")
+    floors = {sid: keep * level for sid, level in plain.levels.items()}
     outcome = GoalOutcome(solution, "source", np.zeros(len(model.rows)), solution.objective,
-                          {s.id: floor for s in network.scanners}, 1)
-    return finish_plan(model, backend, outcome, "headroom"), best
+                          floors, plain.stages + 1)
+    return finish_plan(model, backend, outcome, "headroom"), plain.primary_value

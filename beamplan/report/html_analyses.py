@@ -19,6 +19,7 @@ from beamplan.analyses.compare import CaseOutcome, Comparison
 from beamplan.analyses.outages import SweepReport
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan, ScannerResult
+from beamplan.report.analyses import search_words
 from beamplan.report.document import signed_number
 from beamplan.report.html import facts, figure, inline_svg, page, pct, table
 from beamplan.report.plots import headroom_across_cases, outage_impact
@@ -156,9 +157,13 @@ def _changes(case: CaseOutcome, steady: float | None) -> str:
                           for m in case.moves], (2, 3, 4)))
     else:
         out.append("<p>No setting moved from the base plan.</p>")
+    if case.switch_moves:
+        out.append("<p>Switches moved to restore service: " +
+                   escape("; ".join(m.label for m in case.switch_moves)) + ".</p>")
     if steady is not None and case.best_factor is not None:
-        out.append(f"<p>Settings stability: held within {escape(f'{steady:.2%}')} of the best "
-                   f"headroom factor {escape(f'{case.best_factor:.4f}')}.</p>")
+        out.append(f"<p>Settings stability: held within {escape(f'{steady:.2%}')} of each "
+                   "scanner's level in the plain plan of the case (best headroom factor "
+                   f"{escape(f'{case.best_factor:.4f}')}).</p>")
     return "\n".join(out)
 
 
@@ -233,25 +238,46 @@ def cases_html(comparison: Comparison, *, layout_path: str, cases_path: str | No
 # -- outage sweeps ----------------------------------------------------------------
 
 def _outages_table(report: SweepReport) -> str:
-    rows = [[str(rank), r.label, ", ".join(r.kinds), r.status, pct(r.headroom_factor - 1),
-             _points(r.headroom_lost), format_power(r.delivered_lost_w),
-             ", ".join(r.cut_off) or "-",
-             ", ".join(f"{sid} -{format_power(w)}" for sid, w in r.short
-                       if sid not in r.cut_off) or "-"]
-            for rank, r in enumerate(report.results, start=1)]
-    listed = table("Every outage case, most harmful first: scanners cut off, then scanners "
-                   "short, then headroom lost, then delivered power lost",
-                   ["rank", "out of service", "kind", "status", "lowest headroom",
-                    "headroom lost (points)", "delivered lost", "cut off", "short (fed)"],
-                   rows, (0, 4, 5, 6))
+    switching = bool(report.switches)
+    rows = []
+    for rank, r in enumerate(report.results, start=1):
+        row = [str(rank), r.label, ", ".join(r.kinds), r.status, pct(r.headroom_factor - 1),
+               _points(r.headroom_lost), format_power(r.delivered_lost_w),
+               ", ".join(r.cut_off) or "-",
+               ", ".join(f"{sid} -{format_power(w)}" for sid, w in r.short
+                         if sid not in r.cut_off) or "-"]
+        if switching:
+            at = r.at_failure
+            row += ["; ".join(m.label for m in r.moves) or "-",
+                    (f"{pct(at.headroom_factor - 1)}; cut off: {', '.join(at.cut_off) or '-'}"
+                     if r.moves else "same")]
+        rows.append(row)
+    headers = ["rank", "out of service", "kind", "status", "lowest headroom",
+               "headroom lost (points)", "delivered lost", "cut off", "short (fed)"]
+    caption = ("Every outage case, most harmful first: scanners cut off, then scanners "
+               "short, then headroom lost, then delivered power lost")
+    if switching:
+        headers += ["switch moves", "at the moment of failure"]
+        caption += (", after corrective switching (the moves, and the impact before them, "
+                    "in the last two columns)")
+    listed = table(caption, headers, rows, (0, 4, 5, 6))
     return f'<div class="scroll">\n{listed}\n</div>'
 
 
 def _spof(report: SweepReport, network: Network) -> str:
+    rescued = [n for n in report.single_points_at_failure if n not in report.single_points]
+    note = ""
+    if report.switches:
+        note = ("<p>With corrective switching: a switch may take any of its inputs, so a "
+                "node is listed only when no switch position brings the beam around it." +
+                (f" Single points of failure only at the moment of failure (switching "
+                 f"restores their scanners): {escape(', '.join(rescued))}." if rescued else "")
+                + "</p>\n")
     if not report.single_points:
-        return "<p>No single node cuts a scanner off: every scanner has a second path.</p>"
+        return note + ("<p>No single node cuts a scanner off: every scanner has a second "
+                       "path.</p>")
     kinds = {n.id: n.kind for n in network.nodes}
-    return ("<p>Nodes that lie on every beam path to a scanner (dominators in the beam "
+    return (note + "<p>Nodes that lie on every beam path to a scanner (dominators in the beam "
             "graph): each one, out of service, cuts those scanners off.</p>\n" +
             table("Single points of failure", ["node", "kind", "scanners", "cuts off"],
                   [[node, kinds.get(node, "-"), str(len(cut)), ", ".join(cut)]
@@ -267,8 +293,10 @@ def _check(report: SweepReport) -> str:
     if not singles:
         return ("<p>No single outage in this sweep, so the re-plans were not checked against "
                 "the dominator analysis.</p>")
-    return (f"<p>The dominator analysis and the re-plans agree: each of the {singles} single "
-            "outages cuts off exactly the scanners that the graph says it must.</p>")
+    views = (" in both views (at the moment of failure, and after switching)"
+             if report.switches else "")
+    return (f"<p>The dominator analysis and the re-plans agree{views}: each of the {singles} "
+            "single outages cuts off exactly the scanners that the graph says it must.</p>")
 
 
 def _base_table(plan: Plan) -> str:
@@ -327,7 +355,9 @@ def sweep_html(report: SweepReport, network: Network, *, layout_path: str, versi
                ("cut a scanner off", f"{len(cut)} case(s)"),
                ("leave a scanner short", f"{sum(1 for r in report.results if r.short)} "
                                          "case(s)"),
-               ("single points of failure", ", ".join(report.single_points) or "none"),
+               *([("corrective switching", search_words(report))] if report.switches else []),
+               ("single points of failure" + (" after switching" if report.switches else ""),
+                ", ".join(report.single_points) or "none"),
                ("cross-check", "disagrees" if report.disagreements else "agrees")]
     chart = inline_svg(outage_impact(report, top), "outages", "headroom lost per outage case")
     shown = min(top, report.finished)
