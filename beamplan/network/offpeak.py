@@ -59,14 +59,14 @@ def off_peak_message(ml: MultilayerSpec, incidence_rad: float, wavelength_m: flo
     working = stack_reflectivity(ml, incidence_rad, wavelength_m, 0.0)
     try:
         peak = _peak(ml, ml.period_m, incidence_rad, wavelength_m)
+        best = peak.peak_reflectivity
+        if best <= 0 or working >= OFF_PEAK_RATIO * best:
+            return ""
         bragg = bragg_period((ml.absorber, ml.spacer), ml.absorber_fraction, incidence_rad,
                              wavelength_m)
         period = bragg * wavelength_m / _peak(ml, bragg, incidence_rad,
                                               wavelength_m).peak_wavelength_m
     except ValueError:
-        return ""
-    best = peak.peak_reflectivity
-    if best <= 0 or working >= OFF_PEAK_RATIO * best:
         return ""
     sin2 = math.sin(incidence_rad) ** 2
     n2 = (wavelength_m / (2 * bragg)) ** 2 + sin2  # n̄² at the working wavelength
