@@ -49,173 +49,241 @@ def doc_of(capsys: Capsys, *args: str) -> dict[str, Any]:
     return document
 
 
-# ---- reflect -------------------------------------------------------------------------------
+# ---- mirror --------------------------------------------------------------------------------
 
-def test_reflect_text_and_json_match_mirror_reflectivity(capsys: Capsys) -> None:
+def test_mirror_text_and_json_match_mirror_reflectivity(capsys: Capsys) -> None:
     expected = mirror_reflectivity("Ru", math.radians(10), 13.5e-9, polarisation=1.0)
     assert round(expected.reflectivity, 3) == 0.894  # documented example of mirror_reflectivity
-    code, out, err = run(capsys, "reflect", "--grazing", "10deg", "--polarisation", "1")
+    code, out, err = run(capsys, "mirror", "--grazing", "10deg", "--polarisation", "s")
     assert (code, err) == (0, "")
-    assert "Mirror reflectivity" in out and f"{expected.reflectivity:.5f}" in out
-    assert f"{math.degrees(expected.critical_angle_rad):.4g} deg" in out  # 27.32 deg
+    assert "Grazing-incidence mirror" in out and f"R = {expected.reflectivity:.5f}" in out
+    assert f"critical grazing {math.degrees(expected.critical_angle_rad):.4g}°" in out  # 27.32
+    assert "--grazing" in out and "10deg" in out  # the header shows the inputs as given
 
-    doc = doc_of(capsys, "reflect", "--grazing", "10deg", "--polarisation", "1")
-    assert list(doc) == ["format", "beamplan_version", "inputs", "rows", "method"]
-    assert doc["format"] == "beamplan-calc-reflect/1"
+    doc = doc_of(capsys, "mirror", "--grazing", "10deg", "--polarisation", "s")
+    assert list(doc) == ["format", "calculator", "beamplan_version", "given", "defaults",
+                         "inputs", "points", "summary", "method"]
+    assert (doc["format"], doc["calculator"]) == ("beamplan-calc/2", "mirror")
+    assert doc["given"] == {"grazing": "10deg", "polarisation": "s"}
+    assert doc["defaults"] == {"coating": "Ru", "wavelength": "13.5nm", "density": "handbook",
+                               "roughness": "0nm"}
     assert doc["inputs"] == {"coating": "Ru", "density_g_cm3": None, "roughness_m": 0.0,
-                             "polarisation": 1.0, "delta_beta": None}
-    (row,) = doc["rows"]
-    assert list(row) == ["grazing_rad", "wavelength_m", "reflectivity", "reflectivity_s",
-                         "reflectivity_p", "delta", "beta", "critical_angle_rad"]
-    assert row["grazing_rad"] == pytest.approx(math.radians(10), rel=1e-15)  # 10 deg in rad
-    again = mirror_reflectivity("Ru", row["grazing_rad"], row["wavelength_m"], polarisation=1.0)
-    assert row["reflectivity"] == again.reflectivity
-    assert row["reflectivity_s"] == again.reflectivity_s
-    assert row["reflectivity_p"] == again.reflectivity_p
-    assert (row["delta"], row["beta"]) == (again.delta, again.beta)
-    assert row["critical_angle_rad"] == again.critical_angle_rad
+                             "polarisation": "s", "s_fraction": 1.0, "delta": None,
+                             "beta": None}
+    (point,) = doc["points"]
+    assert list(point) == ["grazing_rad", "grazing_deg", "wavelength_m", "reflectivity",
+                           "reflectivity_s", "reflectivity_p", "delta", "beta",
+                           "critical_grazing_rad", "critical_grazing_deg"]
+    assert point["grazing_rad"] == pytest.approx(math.radians(10), rel=1e-15)  # 10 deg in rad
+    assert point["grazing_deg"] == pytest.approx(10.0, rel=1e-12)
+    again = mirror_reflectivity("Ru", point["grazing_rad"], point["wavelength_m"],
+                                polarisation=1.0)
+    assert point["reflectivity"] == again.reflectivity
+    assert point["reflectivity_s"] == again.reflectivity_s
+    assert point["reflectivity_p"] == again.reflectivity_p
+    assert (point["delta"], point["beta"]) == (again.delta, again.beta)
+    assert point["critical_grazing_rad"] == again.critical_angle_rad
     assert doc["method"] == again.method
 
 
-def test_reflect_options_reach_the_physics(capsys: Capsys) -> None:
-    doc = doc_of(capsys, "reflect", "--coating", "Ru", "--density", "12g/cm^3", "--grazing",
+@pytest.mark.parametrize(("word", "physics"), [
+    ("s", 1.0), ("p", -1.0), ("unpolarised", 0.0), ("unpolarized", 0.0),
+    ("s=0.7", 0.4), ("s=70%", 0.4), ("p=0.3", 0.4), ("s=0", -1.0),
+])  # hand calculation: the physics' degree along s is 2 × (fraction of s) − 1
+def test_polarisation_words(capsys: Capsys, word: str, physics: float) -> None:
+    (point,) = doc_of(capsys, "mirror", "--grazing", "8deg", "--polarisation", word)["points"]
+    expected = mirror_reflectivity("Ru", point["grazing_rad"], 13.5e-9, polarisation=physics)
+    assert point["reflectivity"] == pytest.approx(expected.reflectivity, rel=1e-12)
+
+
+def test_mirror_options_reach_the_physics(capsys: Capsys) -> None:
+    doc = doc_of(capsys, "mirror", "--coating", "Ru", "--density", "Ru=12g/cm^3", "--grazing",
                  "8deg", "--wavelength", "13.2nm", "--roughness", "0.5nm",
-                 "--polarisation=-40%")  # '=' because argparse reads -40% as an option
-    (row,) = doc["rows"]
-    expected = mirror_reflectivity("Ru", row["grazing_rad"], 13.2e-9, density_g_cm3=12.0,
-                                   roughness_m=0.5e-9, polarisation=-0.4)
-    assert row["wavelength_m"] == 13.2e-9  # 13.2 nm parsed exactly (units table)
-    assert row["reflectivity"] == expected.reflectivity
+                 "--polarisation", "s=0.3")
+    (point,) = doc["points"]
+    expected = mirror_reflectivity("Ru", point["grazing_rad"], 13.2e-9, density_g_cm3=12.0,
+                                   roughness_m=0.5e-9, polarisation=-0.4)  # 2 × 0.3 − 1
+    assert point["wavelength_m"] == 13.2e-9  # 13.2 nm parsed exactly (units table)
+    assert point["reflectivity"] == pytest.approx(expected.reflectivity, rel=1e-12)
     assert doc["inputs"]["density_g_cm3"] == 12.0 and doc["inputs"]["roughness_m"] == 0.5e-9
+    assert doc["inputs"]["polarisation"] == "s=0.3" and doc["inputs"]["s_fraction"] == 0.3
+    code, _, err = run(capsys, "mirror", "--grazing", "8deg", "--density", "Mo=10g/cm^3")
+    assert code == 2 and "--density: Mo is not the coating 'Ru'" in err
 
 
-def test_reflect_delta_beta_override(capsys: Capsys) -> None:
-    doc = doc_of(capsys, "reflect", "--coating", "x", "--grazing", "2deg", "--delta-beta",
+def test_mirror_delta_beta_override(capsys: Capsys) -> None:
+    doc = doc_of(capsys, "mirror", "--coating", "x", "--grazing", "2deg", "--delta-beta",
                  "0.02,0.001")
-    (row,) = doc["rows"]
+    (point,) = doc["points"]
     # Documented example of mirror_reflectivity: δ = 0.02, β = 0.001 at 2 deg gives 0.982.
-    assert round(row["reflectivity"], 3) == 0.982
-    assert doc["inputs"]["delta_beta"] == [0.02, 0.001]
-    assert (row["delta"], row["beta"]) == (0.02, 0.001)
+    assert round(point["reflectivity"], 3) == 0.982
+    assert (doc["inputs"]["delta"], doc["inputs"]["beta"]) == (0.02, 0.001)
+    assert (point["delta"], point["beta"]) == (0.02, 0.001)
 
 
-def test_reflect_range_makes_one_row_per_value(capsys: Capsys) -> None:
-    doc = doc_of(capsys, "reflect", "--grazing", "1deg:20deg:1deg")
-    rows = doc["rows"]
-    assert len(rows) == 20  # 1, 2, ..., 20 deg: the stop lands on a step (hand count)
-    for i, row in enumerate(rows, start=1):
-        assert row["grazing_rad"] == pytest.approx(math.radians(i), rel=1e-12)
-        assert row["reflectivity"] == mirror_reflectivity(
-            "Ru", row["grazing_rad"], 13.5e-9).reflectivity
-    # The stop itself, exactly as the units table reads "20deg" (15 significant digits).
-    assert rows[-1]["grazing_rad"] == parse_quantity("20deg", "angle")
-    listed = doc_of(capsys, "reflect", "--grazing", "2deg,5deg,10deg")["rows"]
-    assert [round(math.degrees(r["grazing_rad"]), 9) for r in listed] == [2, 5, 10]
-    code, out, _ = run(capsys, "reflect", "--grazing", "1deg:20deg:1deg")
-    assert code == 0 and "Results (20 rows)" in out
+def test_mirror_range_makes_one_point_per_value(capsys: Capsys) -> None:
+    for grazing, extra in (("1deg..20deg/20", ()), ("1deg..20deg", ("--steps", "20"))):
+        points = doc_of(capsys, "mirror", "--grazing", grazing, *extra)["points"]
+        assert len(points) == 20  # 1, 2, ..., 20 deg in 20 points, ends included (hand count)
+        for i, point in enumerate(points, start=1):
+            assert point["grazing_rad"] == pytest.approx(math.radians(i), rel=1e-12)
+            assert point["reflectivity"] == mirror_reflectivity(
+                "Ru", point["grazing_rad"], 13.5e-9).reflectivity
+        # The end itself, exactly as the units table reads "20deg" (15 significant digits).
+        assert points[-1]["grazing_rad"] == parse_quantity("20deg", "angle")
+    listed = doc_of(capsys, "mirror", "--grazing", "2deg,5deg,10deg")["points"]
+    assert [round(r["grazing_deg"], 9) for r in listed] == [2, 5, 10]
+    code, out, _ = run(capsys, "mirror", "--grazing", "1deg..20deg/20")
+    assert code == 0 and "→ 20 points; highest R" in out
+    assert "grazing °" in out and "R s-pol" in out  # our column names
 
 
-def test_range_stop_included_only_when_it_lands_on_a_step(capsys: Capsys) -> None:
-    # Hand counts: 1, 1.3, 1.6, 1.9 (2 is not on a step); 0.1, 0.2, 0.3 (0.3 is, despite
-    # (0.3 - 0.1) / 0.1 = 1.9999999999999998 in floating point).
-    rows = doc_of(capsys, "gas", "--gas", "H2", "--pressure", "2Pa", "--length",
-                  "1m:2m:0.3m")["rows"]
-    assert [r["length_m"] for r in rows] == pytest.approx([1.0, 1.3, 1.6, 1.9], rel=1e-12)
-    rows = doc_of(capsys, "gas", "--gas", "H2", "--pressure", "2Pa", "--length",
-                  "0.1m:0.3m:0.1m")["rows"]
-    assert len(rows) == 3 and rows[-1]["length_m"] == 0.3
+def test_range_points_are_evenly_spaced_ends_included(capsys: Capsys) -> None:
+    # Hand counts: 1 m to 2 m in 5 points is 1, 1.25, 1.5, 1.75, 2; a falling range works too.
+    points = doc_of(capsys, "drift", "--gas", "H2", "--pressure", "2Pa", "--length",
+                    "1m..2m/5")["points"]
+    assert [r["length_m"] for r in points] == pytest.approx([1.0, 1.25, 1.5, 1.75, 2.0],
+                                                            rel=1e-12)
+    points = doc_of(capsys, "drift", "--gas", "H2", "--pressure", "2Pa", "--length",
+                    "0.3m..0.1m/3")["points"]
+    assert [r["length_m"] for r in points] == pytest.approx([0.3, 0.2, 0.1], rel=1e-12)
+    assert points[-1]["length_m"] == 0.1
 
 
-# ---- multilayer ----------------------------------------------------------------------------
+# ---- stack ---------------------------------------------------------------------------------
 
-def test_multilayer_text_and_json(capsys: Capsys) -> None:
+def test_stack_text_and_json(capsys: Capsys) -> None:
     expected = multilayer_reflectivity(wavelength_m=13.4e-9)
     assert round(expected.reflectivity, 3) == 0.726  # documented example (Mo/Si, 50 periods)
-    code, out, _ = run(capsys, "multilayer", "--wavelength", "13.4nm")
-    assert code == 0 and "Multilayer" in out and f"{expected.reflectivity:.5f}" in out
+    code, out, _ = run(capsys, "stack", "--wavelength", "13.4nm")
+    assert code == 0 and "multilayer stack" in out and f"R = {expected.reflectivity:.5f}" in out
 
-    doc = doc_of(capsys, "multilayer", "--wavelength", "13.4nm")
-    assert doc["format"] == "beamplan-calc-multilayer/1"
-    assert list(doc) == ["format", "beamplan_version", "inputs", "rows", "peak", "method"]
-    assert doc["inputs"] == {"absorber": "Mo", "spacer": "Si", "period_m": 6.9e-9, "gamma": 0.4,
-                             "bilayers": 50, "capping": None, "substrate": "SiO2",
-                             "roughness_m": 0.0, "polarisation": 0.0, "densities_g_cm3": {}}
-    (row,) = doc["rows"]
-    assert row == {"incidence_rad": 0.0, "wavelength_m": 13.4e-9,
-                   "reflectivity": expected.reflectivity,
-                   "reflectivity_s": expected.reflectivity_s,
-                   "reflectivity_p": expected.reflectivity_p}
+    doc = doc_of(capsys, "stack", "--wavelength", "13.4nm")
+    assert (doc["format"], doc["calculator"]) == ("beamplan-calc/2", "stack")
+    assert list(doc) == ["format", "calculator", "beamplan_version", "given", "defaults",
+                         "inputs", "points", "peak", "summary", "method"]
+    assert doc["inputs"] == {"absorber": "Mo", "spacer": "Si", "period_m": 6.9e-9,
+                             "absorber_fraction": 0.4, "periods": 50, "cap": None,
+                             "cap_thickness_m": None, "substrate": "SiO2", "roughness_m": 0.0,
+                             "polarisation": "unpolarised", "s_fraction": 0.5,
+                             "densities_g_cm3": {}}
+    (point,) = doc["points"]
+    assert point == {"incidence_rad": 0.0, "incidence_deg": 0.0, "wavelength_m": 13.4e-9,
+                     "reflectivity": expected.reflectivity,
+                     "reflectivity_s": expected.reflectivity_s,
+                     "reflectivity_p": expected.reflectivity_p}
     assert doc["peak"] is None
 
 
-def test_multilayer_peak_and_options(capsys: Capsys) -> None:
-    doc = doc_of(capsys, "multilayer", "--peak")
+def test_stack_peak_and_options(capsys: Capsys) -> None:
+    doc = doc_of(capsys, "stack", "--peak")
     expected = multilayer_peak()
     # Documented example of multilayer_peak: 0.737 at 13.49 nm, FWHM 0.6 nm.
     assert (round(expected.peak_reflectivity, 3), round(expected.peak_wavelength_m * 1e9, 2),
             round(expected.fwhm_m * 1e9, 2)) == (0.737, 13.49, 0.6)
-    assert doc["peak"] == {"scan": "wavelength", "incidence_rad": 0.0,
-                           "reference_wavelength_m": 13.5e-9,
-                           "peak_reflectivity": expected.peak_reflectivity,
-                           "peak_wavelength_m": expected.peak_wavelength_m,
-                           "fwhm_m": expected.fwhm_m}
-    code, out, _ = run(capsys, "multilayer", "--peak")
-    assert code == 0 and "bandwidth (FWHM)" in out and f"{expected.fwhm_m * 1e9:.4g} nm" in out
+    assert doc["peak"] == {"incidence_rad": 0.0, "incidence_deg": 0.0,
+                           "wavelength_m": expected.peak_wavelength_m,
+                           "reflectivity": expected.peak_reflectivity,
+                           "bandwidth_fwhm_m": expected.fwhm_m,
+                           "index_wavelength_m": 13.5e-9}
+    code, out, _ = run(capsys, "stack", "--peak")
+    assert code == 0 and f"FWHM {expected.fwhm_m * 1e9:.3g} nm" in out
 
-    doc = doc_of(capsys, "multilayer", "--pair", "Mo/Si", "--period", "7nm", "--gamma", "0.35",
-                 "--bilayers", "40", "--incidence", "5deg", "--capping", "Ru:2nm",
-                 "--substrate", "Si", "--roughness", "0.3nm", "--density", "Mo=10g/cm^3")
-    (row,) = doc["rows"]
-    expected_row = multilayer_reflectivity(("Mo", "Si"), 7e-9, 0.35, 40, row["incidence_rad"],
-                                           13.5e-9, capping=("Ru", 2e-9), substrate="Si",
-                                           roughness_m=0.3e-9, densities_g_cm3={"Mo": 10.0})
-    assert row["reflectivity"] == expected_row.reflectivity
-    assert doc["inputs"]["capping"] == {"formula": "Ru", "thickness_m": 2e-9}
+    doc = doc_of(capsys, "stack", "--pair", "Mo/Si", "--period", "7nm", "--absorber-fraction",
+                 "0.35", "--periods", "40", "--incidence", "5deg", "--cap", "Ru",
+                 "--cap-thickness", "2nm", "--substrate", "Si", "--roughness", "0.3nm",
+                 "--density", "Mo=10g/cm^3", "--polarisation", "p")
+    (point,) = doc["points"]
+    expected_point = multilayer_reflectivity(("Mo", "Si"), 7e-9, 0.35, 40, point["incidence_rad"],
+                                             13.5e-9, capping=("Ru", 2e-9), substrate="Si",
+                                             roughness_m=0.3e-9, polarisation=-1.0,
+                                             densities_g_cm3={"Mo": 10.0})
+    assert point["reflectivity"] == expected_point.reflectivity
+    assert (doc["inputs"]["cap"], doc["inputs"]["cap_thickness_m"]) == ("Ru", 2e-9)
+    assert (doc["inputs"]["absorber_fraction"], doc["inputs"]["periods"]) == (0.35, 40)
 
 
-def test_multilayer_wavelength_range(capsys: Capsys) -> None:
-    doc = doc_of(capsys, "multilayer", "--wavelength", "13.2nm:13.8nm:0.1nm")
-    rows = doc["rows"]
-    assert len(rows) == 7  # 13.2, 13.3, ..., 13.8 nm (hand count)
-    for row in rows:
-        assert row["reflectivity"] == multilayer_reflectivity(
-            wavelength_m=row["wavelength_m"]).reflectivity
-    code, _, err = run(capsys, "multilayer", "--incidence", "0deg,5deg", "--peak")
+def test_stack_wavelength_range(capsys: Capsys) -> None:
+    doc = doc_of(capsys, "stack", "--wavelength", "13.2nm..13.8nm/7")
+    points = doc["points"]
+    assert len(points) == 7  # 13.2, 13.3, ..., 13.8 nm (hand count)
+    for point in points:
+        assert point["reflectivity"] == multilayer_reflectivity(
+            wavelength_m=point["wavelength_m"]).reflectivity
+    code, _, err = run(capsys, "stack", "--incidence", "0deg,5deg", "--peak")
     assert code == 2 and "--peak" in err
 
 
-# ---- gas -----------------------------------------------------------------------------------
+def test_stack_cap_needs_its_thickness(capsys: Capsys) -> None:
+    code, _, err = run(capsys, "stack", "--cap", "Ru")
+    assert code == 2 and "--cap Ru needs --cap-thickness" in err
+    code, _, err = run(capsys, "stack", "--cap-thickness", "2nm")
+    assert code == 2 and "--cap-thickness goes with --cap" in err
 
-def test_gas_text_and_json(capsys: Capsys) -> None:
-    args = ("gas", "--gas", "H2", "--pressure", "10Pa", "--temperature", "300K", "--length",
+
+def test_stack_periods_and_work_are_bounded(capsys: Capsys) -> None:
+    code, _, err = run(capsys, "stack", "--periods", "1001")
+    assert code == 2 and "--periods: '1001' is out of range" in err and "1 to 1000" in err
+    # Hand calculation: 91 points × (1000 + 100) = 100,100 is above the work bound of 100,000;
+    # 90 points × 1100 = 99,000 is not (checked without running it: one point is enough here).
+    code, _, err = run(capsys, "stack", "--periods", "1000", "--wavelength", "13nm..14nm/91")
+    assert code == 2 and "too much work" in err and err.count("\n") == 1
+    assert doc_of(capsys, "stack", "--periods", "1000")["inputs"]["periods"] == 1000
+    code, _, err = run(capsys, "mirror", "--grazing", "5deg", "--wavelength", "1nm..2nm/2001")
+    assert code == 2 and "--wavelength: 2,001 wavelengths is too many" in err
+
+
+def test_a_closed_end_of_a_range_is_reachable(capsys: Capsys) -> None:
+    # '90deg' reads as 1.5707963267949 (15 digits), a hair above π/2: it is the end itself.
+    (point,) = doc_of(capsys, "mirror", "--grazing", "90deg")["points"]
+    assert point["grazing_rad"] == math.pi / 2 and point["grazing_deg"] == 90.0
+    code, _, err = run(capsys, "mirror", "--grazing", "90.001deg")
+    assert code == 2 and "give a value in (0, 90 deg]" in err
+
+
+# ---- drift ---------------------------------------------------------------------------------
+
+def test_drift_text_and_json(capsys: Capsys) -> None:
+    args = ("drift", "--gas", "H2", "--pressure", "10Pa", "--temperature", "300K", "--length",
             "2m")
     expected = gas_transmission("H2", 10.0, 300.0, 2.0, 13.5e-9)
     # Documented example of gas_transmission: T = 0.976, n = 2.414e21 /m³.
     assert (round(expected.transmission, 3), f"{expected.number_density_m3:.3e}") == (
         0.976, "2.414e+21")
     code, out, _ = run(capsys, *args)
-    assert code == 0 and f"{expected.transmission:.5f}" in out and "1/e length" in out
+    assert code == 0 and f"T = {expected.transmission:.5f}" in out and "1/e length" in out
     doc = doc_of(capsys, *args)
-    assert doc["format"] == "beamplan-calc-gas/1"
+    assert (doc["format"], doc["calculator"]) == ("beamplan-calc/2", "drift")
     assert doc["inputs"] == {"gas": "H2", "temperature_k": 300.0, "wavelength_m": 13.5e-9}
-    assert doc["rows"] == [{"pressure_pa": 10.0, "length_m": 2.0,
-                            "transmission": expected.transmission,
-                            "number_density_m3": expected.number_density_m3,
-                            "cross_section_m2": expected.cross_section_m2,
-                            "attenuation_length_m": expected.attenuation_length_m}]
+    assert doc["points"] == [{"pressure_pa": 10.0, "length_m": 2.0,
+                              "transmission": expected.transmission,
+                              "number_density_m3": expected.number_density_m3,
+                              "cross_section_m2": expected.cross_section_m2,
+                              "attenuation_length_m": expected.attenuation_length_m}]
 
 
-def test_gas_length_range_and_vacuum(capsys: Capsys) -> None:
-    rows = doc_of(capsys, "gas", "--gas", "H2", "--pressure", "2Pa", "--length",
-                  "10m:40m:10m")["rows"]
-    assert [r["length_m"] for r in rows] == [10.0, 20.0, 30.0, 40.0]  # hand count
-    for r in rows:
+def test_drift_length_range_and_vacuum(capsys: Capsys) -> None:
+    points = doc_of(capsys, "drift", "--gas", "H2", "--pressure", "2Pa", "--length",
+                    "10m..40m/4")["points"]
+    assert [r["length_m"] for r in points] == [10.0, 20.0, 30.0, 40.0]  # hand count
+    for r in points:
         assert r["transmission"] == gas_transmission("H2", 2.0, 295.0, r["length_m"],
                                                      13.5e-9).transmission
     # No gas, no absorption: the 1/e length is infinite, written as null (JSON has no inf).
-    (row,) = doc_of(capsys, "gas", "--gas", "air", "--pressure", "0Pa", "--length",
-                    "5m")["rows"]
-    assert row["transmission"] == 1.0 and row["attenuation_length_m"] is None
+    (point,) = doc_of(capsys, "drift", "--gas", "air", "--pressure", "0Pa", "--length",
+                      "5m")["points"]
+    assert point["transmission"] == 1.0 and point["attenuation_length_m"] is None
+
+
+def test_old_calculator_names_say_the_new_one(capsys: Capsys) -> None:
+    for old, new in (("reflect", "mirror"), ("multilayer", "stack"), ("gas", "drift")):
+        code, out, err = run(capsys, old, "--grazing", "5deg")
+        assert (code, out) == (2, "")
+        assert err == f"beamplan: error: 'calc {old}' is now 'calc {new}'; see 'beamplan calc " \
+                      f"{new} --help'\n"
+    code, _, err = run(capsys, "bogus")  # the retired names are not offered as choices
+    assert code == 2 and "'mirror', 'stack', 'drift', 'demand', 'undulator')" in err
+    assert "'reflect'" not in err
 
 
 # ---- demand --------------------------------------------------------------------------------
@@ -228,9 +296,12 @@ def test_demand_need_text_and_json(capsys: Capsys) -> None:
     assert code == 0 and "200.8 W" in out and "power" in out
 
     doc = doc_of(capsys, "demand", "--dose", "30mJ/cm^2", "--wph", "150")
-    assert doc["format"] == "beamplan-calc-demand/1" and doc["mode"] == "need"
-    assert list(doc) == ["format", "beamplan_version", "mode", "inputs", "result", "summary",
-                         "method"]
+    assert (doc["format"], doc["calculator"], doc["mode"]) == ("beamplan-calc/2", "demand",
+                                                                "need")
+    assert list(doc) == ["format", "calculator", "beamplan_version", "mode", "given",
+                         "defaults", "inputs", "result", "summary", "method"]
+    assert doc["given"] == {"dose": "30mJ/cm^2", "wph": "150"}
+    assert doc["defaults"]["fields"] == "96" and doc["defaults"]["stage-speed"] == "0.8m/s"
     assert doc["inputs"]["tool"] == {
         "field_width_m": 0.026, "field_length_m": 0.033, "fields_per_wafer": 96,
         "slit_height_m": 0.002, "wafer_overhead_s": 9.0, "field_overhead_s": 0.05,
@@ -322,7 +393,7 @@ def resonance_formula(energy_ev: float, period_m: float, k: float, harmonic: int
 
 def test_undulator_wavelength_from_k_and_field(capsys: Capsys) -> None:
     doc = doc_of(capsys, "undulator", "--energy", "1GeV", "--period", "2.8cm", "--k", "2.32")
-    assert doc["format"] == "beamplan-calc-undulator/1" and doc["mode"] == "wavelength"
+    assert (doc["format"], doc["mode"]) == ("beamplan-calc/2", "wavelength")
     result = doc["result"]
     assert result["resonant_wavelength_m"] == resonant_wavelength_m(1e9, 0.028, 2.32)
     assert round(result["resonant_wavelength_m"] * 1e9, 3) == 13.494  # documented example
@@ -330,7 +401,7 @@ def test_undulator_wavelength_from_k_and_field(capsys: Capsys) -> None:
         resonance_formula(1e9, 0.028, 2.32), rel=1e-9)
     code, out, _ = run(capsys, "undulator", "--energy", "1GeV", "--period", "2.8cm", "--k",
                        "2.32")
-    assert code == 0 and "13.4938 nm" in out and "28 mm" in out
+    assert code == 0 and "13.4938 nm" in out and "2.8cm" in out
 
     doc = doc_of(capsys, "undulator", "--energy", "1GeV", "--period", "2.8cm", "--field", "0.9T",
                  "--harmonic", "3")
@@ -375,13 +446,32 @@ def test_undulator_check_and_unreachable(capsys: Capsys) -> None:
 # ---- usage errors --------------------------------------------------------------------------
 
 @pytest.mark.parametrize(("args", "option"), [
-    (("reflect", "--grazing", "5 kg"), "--grazing"),
-    (("reflect", "--grazing", "5"), "--grazing"),  # no unit: 5 rad or 5 deg?
-    (("reflect", "--grazing", "5deg", "--wavelength", "13.5 eV"), "--wavelength"),
-    (("multilayer", "--period", "7deg"), "--period"),
-    (("multilayer", "--capping", "Ru:2"), "--capping"),
-    (("gas", "--gas", "H2", "--pressure", "2m", "--length", "1m"), "--pressure"),
-    (("gas", "--gas", "H2", "--pressure", "2Pa", "--length", "1m:2m"), "--length"),
+    (("mirror", "--grazing", "5 kg"), "--grazing"),
+    (("mirror", "--grazing", "5"), "--grazing"),  # no unit: 5 rad or 5 deg?
+    (("mirror", "--grazing", "5deg", "--wavelength", "13.5 eV"), "--wavelength"),
+    (("stack", "--period", "7deg"), "--period"),
+    (("stack", "--cap", "Ru", "--cap-thickness", "2"), "--cap-thickness"),
+    (("stack", "--absorber-fraction", "1.5"), "--absorber-fraction"),
+    (("stack", "--periods", "0"), "--periods"),
+    (("stack", "--periods", "4.5"), "--periods"),
+    (("stack", "--pair", "Mo"), "--pair"),
+    (("mirror", "--grazing", "5deg", "--polarisation", "0.5"), "--polarisation"),
+    (("mirror", "--grazing", "5deg", "--polarisation", "s=1.5"), "--polarisation"),
+    (("mirror", "--grazing", "95deg"), "--grazing"),
+    (("mirror", "--grazing", "2deg..10deg"), "--grazing"),  # a range needs its points
+    (("mirror", "--grazing", "2deg..10deg/1"), "--grazing (points after '/')"),
+    (("mirror", "--grazing", "2deg..10deg/20000"), "--grazing (points after '/')"),
+    (("mirror", "--grazing", "1,5deg"), "--grazing"),  # a decimal comma
+    (("mirror", "--grazing", "\u0663deg"), "--grazing"),  # a digit that is not 0-9
+    (("mirror", "--grazing", "5deg\x1b[2J"), "--grazing"),  # a control sequence
+    (("mirror", "--grazing", "9" * 5000 + "deg"), "--grazing"),
+    (("mirror", "--grazing", "5deg", "--steps", "9"), "--steps"),
+    (("mirror", "--grazing", "5deg", "--density", "Ru=-1g/cm^3"), "--density"),
+    (("drift", "--gas", "H2", "--pressure", "2Pa", "--length", "1m", "--temperature", "0K"),
+     "--temperature"),
+    (("drift", "--gas", "H2 O", "--pressure", "2Pa", "--length", "1m"), "--gas"),
+    (("drift", "--gas", "H2", "--pressure", "2m", "--length", "1m"), "--pressure"),
+    (("drift", "--gas", "H2", "--pressure", "2Pa", "--length", "1m:2m"), "--length"),
     (("demand", "--dose", "30W", "--wph", "100"), "--dose"),
     (("demand", "--dose", "30mJ/cm^2", "--power", "3m"), "--power"),
     (("undulator", "--energy", "1T", "--period", "2cm", "--k", "1"), "--energy"),
@@ -397,7 +487,7 @@ def test_bad_values_exit_2_naming_the_option(capsys: Capsys, args: tuple[str, ..
 
 def test_usage_errors_exit_2(capsys: Capsys) -> None:
     assert run(capsys)[0] == 2  # no calculator
-    assert run(capsys, "reflect")[0] == 2  # --grazing is required
+    assert run(capsys, "mirror")[0] == 2  # --grazing is required
     assert run(capsys, "demand", "--dose", "30mJ/cm^2")[0] == 2  # neither --wph nor --power
     assert run(capsys, "demand", "--dose", "30mJ/cm^2", "--wph", "1", "--power", "1W")[0] == 2
     assert run(capsys, "demand", "--dose", "30mJ/cm^2", "--wph", "100", "--field",
@@ -405,17 +495,17 @@ def test_usage_errors_exit_2(capsys: Capsys) -> None:
     assert run(capsys, "undulator", "--energy", "1GeV", "--period", "2cm")[0] == 2
     assert run(capsys, "undulator", "--energy", "1GeV", "--period", "2cm", "--k", "1",
                "--target", "13.5nm")[0] == 2
-    code, _, err = run(capsys, "reflect", "--grazing", "5deg:1deg:1deg")
+    code, _, err = run(capsys, "mirror", "--grazing", "5deg:1deg:1deg")
     assert code == 2 and "--grazing" in err
 
 
 def test_bad_physical_input_exits_1_with_one_line(capsys: Capsys) -> None:
-    for args in (("reflect", "--grazing", "5deg", "--coating", "Qq"),
-                 ("reflect", "--grazing", "5deg", "--wavelength", "500nm"),  # beyond the tables
-                 ("gas", "--gas", "H2", "--pressure", "2Pa", "--length", "1m",
-                  "--temperature", "0K"),
+    for args in (("mirror", "--grazing", "5deg", "--coating", "Qq"),
+                 ("mirror", "--grazing", "5deg", "--wavelength", "500nm"),  # beyond the tables
+                 ("drift", "--gas", "Xx2", "--pressure", "2Pa", "--length", "1m"),
+                 ("stack", "--substrate", "CH4"),  # no handbook density: give --density
                  ("demand", "--dose", "30mJ/cm^2", "--wph", "100", "--mask-reflectivity",
-                  "1.5")):
+                  "0")):  # in [0, 1] as a fraction, but the tool needs a mask that reflects
         code, out, err = run(capsys, *args)
         assert code == 1 and out == "" and err.count("\n") == 1, (args, err)
         assert err.startswith("beamplan: error: ") and "Traceback" not in err
@@ -438,7 +528,7 @@ def test_calculator_runs_as_a_process_without_heavy_imports() -> None:
     assert proc.returncode == 0, proc.stderr
     assert json.loads(proc.stdout)["mode"] == "k"
     assert json.loads(proc.stderr) == [], f"heavy imports after {elapsed:.2f} s: {proc.stderr}"
-    text = subprocess.run([sys.executable, "-m", "beamplan.cli.main", "calc", "gas", "--gas",
+    text = subprocess.run([sys.executable, "-m", "beamplan.cli.main", "calc", "drift", "--gas",
                            "H2", "--pressure", "2Pa", "--length", "40m"],
                           capture_output=True, text=True, check=False)
-    assert text.returncode == 0 and "Gas-drift transmission" in text.stdout
+    assert text.returncode == 0 and "Gas-filled drift" in text.stdout

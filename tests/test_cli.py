@@ -115,7 +115,7 @@ def test_outputs_are_written_and_inputs_never_overwritten(
                      str(tmp_path / "tables"), "--quiet")
     assert code == 0
     assert json.loads(report.read_text())["status"] == "met"
-    names = sorted(p.name for p in (tmp_path / "tables").iterdir())
+    names = sorted(p.name for p in (tmp_path / "tables").iterdir() if p.name[0] != ".")
     assert names == ["binding.csv", "elements.csv", "losses.csv", "scanners.csv", "sources.csv"]
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".beamplan-")]
 

@@ -75,7 +75,7 @@ class ReferenceLp:
 
     def __init__(self, net: Network) -> None:
         self.net = net
-        # a scanner out of service (in_service: false) has no need and no max_power
+        # a scanner out of service (offline: true) has no need and no max_power
         self.scanners = [n for n in net.nodes if n.behaviour is Behaviour.SINK
                          and getattr(n, "in_service", True)]
         self.link = {lk.index: i for i, lk in enumerate(net.links)}

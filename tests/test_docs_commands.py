@@ -13,9 +13,11 @@ covered without touching this file. The rules:
   directory holding a copy of ``layouts/``, so outputs (``-o two-bay.png``,
   ``--csv out/``) land there;
 - the exit code must be the documented one: the one a comment names (``exit 1``),
-  3 where the comment says the needs cannot be met or scanners are short, and 0
-  otherwise. A transcript (``$ beamplan ...``) whose shown output is a
-  ``beamplan: error:`` line must fail with exit 1 or 2 and print that very line;
+  3 where the comment says the needs cannot be met or scanners are short, 3 for
+  any ``plan``, ``cases`` or ``draw --plan`` of a layout whose own ``plan`` is
+  documented so (``overbooked``), and 0 otherwise. A transcript
+  (``$ beamplan ...``) whose shown output is a ``beamplan: error:`` line must
+  fail with exit 1 or 2 and print that very line;
 - no command may print a Python traceback;
 - every ``python`` code block runs as a script in the same kind of directory.
 """
@@ -150,6 +152,13 @@ def collect() -> tuple[list[Command], list[Snippet], list[str]]:
                     shown = after[0] if after else ""
                 expected = frozenset({1, 2}) if shown else _expected(comment)
                 commands.append(Command(name, number, tuple(words[1:]), expected, shown))
+    short = {c.argv[1] for c in commands
+             if c.expected == {3} and c.argv[:1] == ("plan",) and len(c.argv) > 1}
+    planned = ("plan", "cases")
+    commands = [Command(c.doc, c.line, c.argv, frozenset({3}), c.shown_error)
+                if c.expected == {0} and c.argv and (c.argv[0] in planned or (
+                    c.argv[0] == "draw" and "--plan" in c.argv))
+                and any(word in short for word in c.argv[1:2]) else c for c in commands]
     return commands, snippets, skipped
 
 

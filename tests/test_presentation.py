@@ -69,7 +69,7 @@ elements:
 scanners:
   s1: {power: 300 W}
   s2: {power: 300 W}
-  s3: {power: 300 W, in_service: false}
+  s3: {power: 300 W, offline: true}
 beamlines: ["src -> sp", "sp.a -> s1", "sp.b -> s2", "sp.c -> s3"]
 """
 

@@ -51,11 +51,11 @@ def _command_line_case(args: argparse.Namespace) -> str | None:
 
 
 def _refuse_early(args: argparse.Namespace) -> None:
-    """Refuse an output that names an input before any planning is done."""
-    from beamplan.report.files import refuse_inputs
+    """Refuse an output that clashes with an input or another output before any planning."""
+    from beamplan.cli.outputs import check
 
-    inputs = [p for p in (args.layout, getattr(args, "cases", None)) if p]
-    refuse_inputs([args.json, getattr(args, "html", None)], inputs)
+    check([("--json", args.json), ("--html", args.html)], [("--csv", args.csv)],
+          [args.layout, getattr(args, "cases", None)])
 
 
 def _cases(args: argparse.Namespace) -> int:
@@ -98,17 +98,13 @@ def _outputs(args: argparse.Namespace, what: str, result: Any,
     ``network`` is the network swept (for ``sweep``; ``cases`` has its own in the plans).
     """
     from beamplan.cli.commands import _console
+    from beamplan.cli.outputs import STDOUT, emit
     from beamplan.report import analyses as rep
-    from beamplan.report.files import write_atomic
 
     inputs = [p for p in (args.layout, getattr(args, "cases", None)) if p]
     document = rep.cases_document if what == "cases" else rep.sweep_document
     if args.json:
-        text = rep.to_json(document(result, __version__))
-        if args.json == "-":
-            sys.stdout.write(text)
-        else:
-            write_atomic(args.json, text, inputs)
+        emit(args.json, rep.to_json(document(result, __version__)), inputs)
     if args.csv:
         from beamplan.report.files import write_tables
 
@@ -124,8 +120,8 @@ def _outputs(args: argparse.Namespace, what: str, result: Any,
             assert network is not None, "a sweep report needs the network swept"
             page = sweep_html(result, network, layout_path=args.layout, version=__version__,
                               top=args.top)
-        write_atomic(args.html, page, inputs)
-    if args.json != "-" and not args.quiet:
+        emit(args.html, page, inputs)
+    if STDOUT not in (args.json, args.html) and not args.quiet:
         view = (rep.cases_renderable(result) if what == "cases"
                 else rep.sweep_renderable(result, args.top))
         _console().print(view)
@@ -171,9 +167,10 @@ def _common(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("-g", "--goal", choices=("headroom", "min-source", "priority"),
                         default="headroom", help="the planning goal (default headroom)")
     parser.add_argument("--json", metavar="PATH", help="write the JSON report ('-' for stdout)")
-    parser.add_argument("--csv", metavar="DIR", help="write CSV tables into DIR")
+    parser.add_argument("--csv", metavar="DIR", help="write CSV tables into DIR, created or "
+                        "replaced as a whole")
     parser.add_argument("--html", metavar="FILE", help="write a self-contained HTML report "
-                        "(tables, chart, provenance) to FILE")
+                        "(tables, chart, provenance) to FILE ('-' for stdout)")
     parser.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
                         help="LP solver (default: HiGHS in process, CBC if highspy is missing)")
     parser.add_argument("-q", "--quiet", action="store_true", help="no terminal report")

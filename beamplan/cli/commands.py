@@ -63,40 +63,39 @@ def _check(args: argparse.Namespace) -> int:
 
 
 def _plan(args: argparse.Namespace) -> int:
+    from beamplan.cli.outputs import check, emit
     from beamplan.optimise.planner import plan_network
-    from beamplan.report.files import refuse_inputs
 
-    refuse_inputs([args.json, args.html], [args.layout])
+    inputs = [args.layout]
+    to_stdout = check([("--json", args.json), ("--html", args.html)], [("--csv", args.csv)],
+                      inputs)
     network = _load_network(args.layout)
-    to_stdout = args.json == "-"
     if not args.quiet:
         _print_warnings(network)
     plan = plan_network(network, args.goal, args.solver)
-    inputs = [args.layout]
+    sizing = None
+    shown = not args.quiet or args.json or args.csv
+    if shown and (args.what_it_takes or not plan.all_met):
+        from beamplan.analyses.sizing_check import what_it_takes
+
+        sizing = what_it_takes(network, plan, args.solver)
     if args.json:
         from beamplan.report.document import plan_json
-        from beamplan.report.files import write_atomic
 
-        text = plan_json(plan, __version__)
-        if to_stdout:
-            sys.stdout.write(text)
-            sys.stdout.flush()
-        else:
-            write_atomic(args.json, text, inputs)
+        emit(args.json, plan_json(plan, __version__, sizing), inputs)
     if args.csv:
         from beamplan.report.document import write_csv
 
-        write_csv(plan, args.csv, inputs)
+        write_csv(plan, args.csv, inputs, sizing)
     if args.html:
-        from beamplan.report.files import write_atomic
         from beamplan.report.html import plan_html
 
-        write_atomic(args.html, plan_html(plan, network, layout_path=args.layout,
-                                          version=__version__), inputs)
+        emit(args.html, plan_html(plan, network, layout_path=args.layout, version=__version__),
+             inputs)
     if not to_stdout and not args.quiet:
         from beamplan.report.terminal import plan_renderable
 
-        _console().print(plan_renderable(plan, elements=not args.brief))
+        _console().print(plan_renderable(plan, elements=not args.brief, sizing=sizing))
     return int(ExitCode.OK if plan.all_met else ExitCode.SHORT)
 
 
@@ -122,12 +121,17 @@ def register(sub: Any) -> None:
                       "min-source: least source power that meets every need; priority: serve "
                       "tier 1 first, then tier 2, ...")
     plan.add_argument("--json", metavar="PATH", help="write the JSON report ('-' for stdout)")
-    plan.add_argument("--csv", metavar="DIR", help="write one CSV file per table into DIR")
+    plan.add_argument("--csv", metavar="DIR", help="write one CSV file per table into DIR, "
+                      "created or replaced as a whole")
     plan.add_argument("--html", metavar="FILE", help="write a self-contained HTML report "
-                      "(tables, diagram, plots, provenance) to FILE")
+                      "(tables, diagram, plots, provenance) to FILE ('-' for stdout)")
     plan.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
                       help="LP solver (default: HiGHS in process, CBC if highspy is missing)")
     plan.add_argument("--brief", action="store_true", help="leave out the element table")
+    plan.add_argument("--what-it-takes", action="store_true",
+                      help="report what it takes to serve every need even when all are met "
+                      "(then the margins: the least source power and how far each limit "
+                      "reached sits from blocking); a plan that falls short always has it")
     plan.add_argument("-q", "--quiet", action="store_true",
                       help="no terminal report (files and exit code only)")
     plan.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)

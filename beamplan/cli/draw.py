@@ -28,12 +28,13 @@ def _format(output: str, chosen: str | None) -> str:
 
 def _draw(args: argparse.Namespace) -> int:
     from beamplan.cli.commands import _load_network, _print_warnings
+    from beamplan.cli.outputs import STDOUT, check, emit
     from beamplan.report.diagram import diagram_picture
     from beamplan.report.dot import diagram_dot
-    from beamplan.report.files import write_atomic
 
     fmt = _format(args.output, args.format)
-    if args.output == "-" and fmt in ("png", "pdf"):
+    check([("--output", args.output)], [], [args.layout])
+    if args.output == STDOUT and fmt in ("png", "pdf"):
         raise UsageError(f"{fmt.upper()} is binary: give a file name with -o, not '-'")
     network = _load_network(args.layout)
     if not args.quiet:
@@ -47,15 +48,11 @@ def _draw(args: argparse.Namespace) -> int:
         data = diagram_dot(network, plan, group_chains=args.group_chains).encode("utf-8")
     else:
         data = diagram_picture(network, plan, group_chains=args.group_chains).data(fmt)
-    if args.output == "-":
-        sys.stdout.write(data.decode("utf-8"))
-        sys.stdout.flush()
-    else:
-        write_atomic(args.output, data, [args.layout])
-        if not args.quiet:
-            what = f"with the {plan.goal} plan ({plan.status})" if plan else "without a plan"
-            sys.stdout.write(f"{args.layout}: drew '{network.name}' {what} to {args.output} "
-                             f"({fmt.upper()})\n")
+    emit(args.output, data if fmt in ("png", "pdf") else data.decode("utf-8"), [args.layout])
+    if args.output != STDOUT and not args.quiet:
+        what = f"with the {plan.goal} plan ({plan.status})" if plan else "without a plan"
+        sys.stdout.write(f"{args.layout}: drew '{network.name}' {what} to {args.output} "
+                         f"({fmt.upper()})\n")
     return int(ExitCode.SHORT if plan is not None and not plan.all_met else ExitCode.OK)
 
 

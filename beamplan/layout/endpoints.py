@@ -97,7 +97,7 @@ def read_sources(ctx: Context, section: dict[str, Any]) -> list[SourceSpec]:
         angle = r.quantity("polarisation_angle", "angle", default=0.0)
         undulator = _undulator(r)
         note = r.text("note")
-        in_service = r.flag("in_service", default=True)
+        in_service = r.in_use("a source")
         r.finish()
         if power is not None:
             out.append(SourceSpec(sid, power, electrical, note, ctx.positions.key(path),
@@ -198,7 +198,7 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
         max_w = r.quantity("max_power", "power", minimum=0.0)
         priority = r.integer("priority", default=1, minimum=1)
         note = r.text("note")
-        in_service = r.flag("in_service", default=True)
+        in_service = r.in_use("a scanner")
         r.finish()
         if len(ctx.diagnostics) > before and any(d.is_error for d in ctx.diagnostics[before:]):
             continue

@@ -317,7 +317,7 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
     note = r.text("note")
     heat_limit_w = r.quantity("heat_limit", "power", minimum=0.0)
     derate = r.fraction("derate", default=1.0)
-    in_service = r.flag("in_service", default=True)
+    in_service = r.in_use("an element")
     if not kind:
         return None  # its other keys cannot be judged without a kind
     reader = KINDS.get(kind)

@@ -196,6 +196,28 @@ class MapReader:
             return default
         return value
 
+    def in_use(self, noun: str) -> bool:
+        """False when the mapping says ``offline: true`` (default: in use).
+
+        The retired key ``in_service`` is refused with a located error that names
+        ``offline``; ``noun`` says what is taken out of use (``"an element"``).
+
+        Examples
+        --------
+        >>> from beamplan.layout.yamlpos import parse_yaml
+        >>> doc = parse_yaml("m1: {offline: true}", "x.yaml")
+        >>> r = MapReader(Context(doc.positions), doc.data["m1"], {"offline": ("m1", "offline")},
+        ...               "element 'm1'", ("m1",))
+        >>> r.in_use("an element")
+        False
+        """
+        if "in_service" in self.data:
+            self.asked.add("in_service")
+            self.ctx.error("renamed-key", f"{self.subject}: 'in_service' is not a key",
+                           self.key_loc("in_service"),
+                           f"to take {noun} out of use write 'offline: true'")
+        return not self.flag("offline", default=False)
+
     def text(self, key: str, *, required: bool = False, default: str = "") -> str:
         """A string value."""
         value = self.raw(key, required, "a-name")

@@ -5,7 +5,6 @@ Documents: ``beamplan-cases/1`` and ``beamplan-outages/1`` (docs/json-format.md)
 
 from __future__ import annotations
 
-import json
 from typing import Any
 
 from rich.console import Group
@@ -15,7 +14,8 @@ from beamplan.analyses.compare import Comparison
 from beamplan.analyses.outages import SweepReport
 from beamplan.optimise.result import Plan
 from beamplan.report import CAUTION
-from beamplan.report.document import csv_text, rounded
+from beamplan.report.document import csv_text, rounded, signed_percent, signed_power
+from beamplan.report.document import to_json as strict_json
 from beamplan.report.terminal import titled_table
 from beamplan.units import format_power
 
@@ -30,7 +30,7 @@ def _short(plan: Plan) -> str:
     short = [s for s in plan.scanners if s.status in ("short", "cut off")]
     if not short:
         return "none"
-    return ", ".join(f"{s.id} −{format_power(s.shortfall_w)}" for s in short[:3]) + (
+    return ", ".join(f"{s.id} -{format_power(s.shortfall_w)}" for s in short[:3]) + (
         f" (+{len(short) - 3})" if len(short) > 3 else "")
 
 
@@ -55,7 +55,8 @@ def cases_renderable(comparison: Comparison) -> Group:
         per.add_column(case.name, justify="right", overflow="fold")
     for sid in comparison.scanner_ids:
         base = _scanner(comparison.base, sid)
-        cells = [f"{format_power(base.delivered_w)} {base.headroom:+.0%}" if base else "-"]
+        cells = [f"{format_power(base.delivered_w)} {signed_percent(base.headroom, 0)}"
+                 if base else "-"]
         for case in comparison.cases:
             s = _scanner(case.plan, sid)
             if s is None:
@@ -64,7 +65,7 @@ def cases_renderable(comparison: Comparison) -> Group:
                 cells.append("out")
             else:
                 delta = s.delivered_w - (base.delivered_w if base else 0.0)
-                cells.append(f"{s.headroom:+.0%} {delta:+.0f}W")
+                cells.append(f"{signed_percent(s.headroom, 0)} {signed_power(delta)}")
         per.add_row(sid, *cells)
     parts: list[Any] = [summary, Text(""), per]
     for case in comparison.cases:
@@ -195,5 +196,5 @@ def sweep_csv(report: SweepReport) -> dict[str, str]:
 
 
 def to_json(document: dict[str, Any]) -> str:
-    """Indented JSON text with a final newline."""
-    return json.dumps(document, indent=2, ensure_ascii=False) + "\n"
+    """Strict, indented JSON with a final newline (:func:`beamplan.report.document.to_json`)."""
+    return strict_json(document)

@@ -1,12 +1,11 @@
-"""Terminal rendering of calculator documents: one display rule per JSON key.
+"""Terminal rendering of calculator documents: a header as given, then a table or a line.
 
 The documents come from :mod:`beamplan.report.calc`; rich loads only here.
 """
 
 from __future__ import annotations
 
-import math
-from collections.abc import Callable, Iterable, Mapping
+from collections.abc import Callable, Mapping
 from typing import TYPE_CHECKING, Any, NamedTuple
 
 from beamplan.units import format_power
@@ -17,20 +16,17 @@ if TYPE_CHECKING:
 __all__ = ["calc_renderable"]
 
 
-
 class _Show(NamedTuple):
     label: str
     unit: str = ""
     fmt: Callable[[Any], str] = str
     none: str = "-"
-    short: str = ""  # the column header of wide tables, when shorter than the label
 
 
 def _g(scale: float = 1.0, digits: int = 4) -> Callable[[Any], str]:
     return lambda v: f"{v * scale:.{digits}g}"
 
 
-_DEG = _g(180.0 / math.pi)
 _NM = _g(1e9)
 _MM = _g(1e3)
 _SCI = _g(1.0, 4)
@@ -45,50 +41,24 @@ def _pct(v: float) -> str:
     return f"{v * 100:.4g}"
 
 
-def _capping(v: Mapping[str, Any]) -> str:
-    return f"{v['formula']} {v['thickness_m'] * 1e9:.4g} nm"
-
-
-def _densities(v: Mapping[str, float]) -> str:
-    return ", ".join(f"{name} {rho:.4g} g/cm³" for name, rho in v.items()) or "tabulated"
-
-
 _SHOW: dict[str, _Show] = {
-    "coating": _Show("coating"),
-    "density_g_cm3": _Show("density", "g/cm³", _g(), "tabulated"),
-    "roughness_m": _Show("roughness (rms)", "nm", _NM),
-    "polarisation": _Show("polarisation (+1 s, −1 p)", "", _g(1.0, 3)),
-    "delta_beta": _Show("δ, β", "", lambda v: f"{v[0]:.5g}, {v[1]:.5g} (given)", "tables"),
-    "grazing_rad": _Show("grazing", "deg", _DEG, short="θ"),
-    "incidence_rad": _Show("incidence from normal", "deg", _DEG, short="θ"),
-    "wavelength_m": _Show("wavelength", "nm", _NM, short="λ"),
+    "grazing_deg": _Show("grazing", "°", _g()),
+    "incidence_deg": _Show("incidence", "°", _g()),
+    "wavelength_m": _Show("λ", "nm", _NM),
     "reflectivity": _Show("R", "", _fix),
-    "reflectivity_s": _Show("R_s", "", _fix),
-    "reflectivity_p": _Show("R_p", "", _fix),
+    "reflectivity_s": _Show("R s-pol", "", _fix),
+    "reflectivity_p": _Show("R p-pol", "", _fix),
     "delta": _Show("δ", "", _SCI),
     "beta": _Show("β", "", _SCI),
-    "critical_angle_rad": _Show("critical angle", "deg", _DEG, short="θc"),
-    "absorber": _Show("absorber"),
-    "spacer": _Show("spacer"),
-    "period_m": _Show("period", "nm", _NM),
-    "gamma": _Show("Γ (absorber share)", "", _g(1.0, 3)),
-    "bilayers": _Show("bilayers"),
-    "capping": _Show("capping", "", _capping, "none"),
-    "substrate": _Show("substrate"),
-    "densities_g_cm3": _Show("densities", "", _densities),
-    "scan": _Show("scan"),
-    "reference_wavelength_m": _Show("index taken at", "nm", _NM),
-    "peak_reflectivity": _Show("peak R", "", _fix),
-    "peak_wavelength_m": _Show("peak wavelength", "nm", _NM),
-    "fwhm_m": _Show("bandwidth (FWHM)", "nm", _NM, "outside the scan"),
-    "gas": _Show("gas"),
-    "temperature_k": _Show("temperature", "K", _g()),
-    "pressure_pa": _Show("pressure", "Pa", _g(), short="p"),
-    "length_m": _Show("length", "m", _g(), short="L"),
-    "transmission": _Show("transmission", "", _fix, short="T"),
-    "number_density_m3": _Show("number density", "m⁻³", _SCI, short="n"),
-    "cross_section_m2": _Show("cross-section", "m²", _SCI, short="σ"),
-    "attenuation_length_m": _Show("1/e length", "m", _g(), "infinite", "1/e"),
+    "critical_grazing_deg": _Show("critical grazing", "°", _g()),
+    "pressure_pa": _Show("p", "Pa", _g()),
+    "length_m": _Show("L", "m", _g()),
+    "transmission": _Show("T", "", _fix),
+    "number_density_m3": _Show("n", "m⁻³", _SCI),
+    "cross_section_m2": _Show("σ", "m²", _SCI),
+    "attenuation_length_m": _Show("1/e length", "m", _g(), "infinite"),
+    "bandwidth_fwhm_m": _Show("FWHM", "nm", _NM, "outside the scan"),
+    "index_wavelength_m": _Show("mean index taken at", "nm", _NM),
     "recipe_dose_j_m2": _Show("recipe dose", "mJ/cm²", _g(0.1)),
     "wafers_per_hour": _Show("throughput", "wph", _g()),
     "if_power_w": _Show("IF power", "", format_power),
@@ -140,9 +110,9 @@ _SHOW: dict[str, _Show] = {
     "shortest_wavelength_m": _Show("shortest (K = 0)", "nm", _g(1e9, 6)),
 }
 
-_TITLES = {"reflect": "Mirror reflectivity (thick single surface)",
-           "multilayer": "Multilayer mirror reflectivity",
-           "gas": "Gas-drift transmission",
+_TITLES = {"mirror": "Grazing-incidence mirror · one thick surface",
+           "stack": "Periodic multilayer stack",
+           "drift": "Gas-filled drift",
            "demand": "Scanner demand", "undulator": "Undulator resonance"}
 
 
@@ -161,36 +131,34 @@ def _cell(key: str, value: Any, *, unit: bool, calc: str = "") -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     text = show.fmt(value)
-    return f"{text} {show.unit}" if unit and show.unit else text
+    if not unit or not show.unit:
+        return text
+    return f"{text}{show.unit}" if show.unit == "°" else f"{text} {show.unit}"
 
 
-def _pairs(items: Iterable[tuple[str, Any]], calc: str) -> list[tuple[str, str]]:
-    """Label and value cells; a nested mapping (tool, stochastic floor) is spread out, and a
-    None whose display text is empty (not applicable in this mode) is left out."""
-    out: list[tuple[str, str]] = []
-    for key, value in items:
-        show = _show(key, calc)
-        if isinstance(value, Mapping) and key in ("tool", "stochastic"):
-            out += _pairs(value.items(), calc)
-        elif value is not None or show.none:
-            out.append((show.label, _cell(key, value, unit=True, calc=calc)))
-    return out
+def _columns(points: list[Mapping[str, Any]]) -> list[str]:
+    """The keys shown as columns: an angle in degrees stands for its radians twin."""
+    keys = list(points[0])
+    return [k for k in keys if not (k.endswith("_rad") and k[:-4] + "_deg" in keys)]
 
 
 def calc_renderable(document: Mapping[str, Any]) -> Group:
-    """A calculator document as rich renderables: inputs, results, summary and method.
+    """A calculator document as rich renderables for a terminal.
 
-    A document with one row shows it as label/value pairs; with many rows, as a
-    table with one row each, the columns that never change listed once above it.
+    First a header: the title and every option as the engineer gave it (the
+    defaults that applied marked so). Then, for a scan, one line with what is
+    the same at every point and a table of the rest; for one value, a line
+    with the answer; demand and undulator list their result. Last the
+    summary line and the method.
 
     Examples
     --------
     >>> import io
     >>> from rich.console import Console
-    >>> from beamplan.report.calc import gas_document
-    >>> console = Console(file=io.StringIO(), width=80, color_system=None)
-    >>> console.print(calc_renderable(gas_document("H2", [10.0], 300.0, [2.0, 4.0], 13.5e-9)))
-    >>> "transmission" in console.file.getvalue()
+    >>> from beamplan.report.calc import drift_document
+    >>> console = Console(file=io.StringIO(), width=100, color_system=None)
+    >>> console.print(calc_renderable(drift_document("H2", [10.0], 300.0, [2.0, 4.0], 13.5e-9)))
+    >>> "T from" in console.file.getvalue()
     True
     """
     from rich import box
@@ -198,43 +166,44 @@ def calc_renderable(document: Mapping[str, Any]) -> Group:
     from rich.table import Table
     from rich.text import Text
 
-    parts: list[Any] = []
-    name = str(document["format"]).removeprefix("beamplan-calc-").split("/")[0]
+    name = str(document.get("calculator", ""))
+    parts: list[Any] = [Text(_TITLES.get(name, name), style="bold")]
+    header = Table(box=None, show_header=False, padding=(0, 1, 0, 2))
+    header.add_column(style="bold")
+    header.add_column(overflow="fold")
+    header.add_column(style="dim")
+    for option, text in document.get("given", {}).items():
+        header.add_row(f"--{option}", str(text), "")
+    for option, text in document.get("defaults", {}).items():
+        header.add_row(f"--{option}", str(text), "default")
+    parts += [header, Text("")]
 
-    def section(title: str, body: Any) -> None:
-        parts.extend([Text(title, style="bold"), body, Text("")])
-
-    def pairs(title: str, items: Iterable[tuple[str, Any]]) -> None:
-        table = Table(box=None, show_header=False, padding=(0, 1, 0, 2))
-        table.add_column(style="bold")
-        table.add_column(overflow="fold")
-        for label, value in _pairs(items, name):
-            table.add_row(label, value)
-        section(title, table)
-
-    pairs(_TITLES.get(name, name), document["inputs"].items())
-    rows: list[Mapping[str, Any]] = list(document.get("rows", []))
-    if len(rows) == 1:
-        pairs("Result", rows[0].items())
-    elif rows:
-        keys = list(rows[0])
-        fixed = [k for k in keys if all(r[k] == rows[0][k] for r in rows)]
+    points: list[Mapping[str, Any]] = list(document.get("points", []))
+    if len(points) > 1:
+        keys = _columns(points)
+        fixed = [k for k in keys if all(q[k] == points[0][k] for q in points)]
         if fixed:
-            pairs("Same in every row", ((k, rows[0][k]) for k in fixed))
+            same = " · ".join(f"{_show(k, name).label} {_cell(k, points[0][k], unit=True)}"
+                              for k in fixed)
+            parts.append(Text(f"at every point: {same}"))
         table = Table(box=box.SIMPLE_HEAD, padding=(0, 1))
         varying = [k for k in keys if k not in fixed]
         for key in varying:
             show = _show(key, name)
-            head = show.short or show.label
-            table.add_column(f"{head} ({show.unit})" if show.unit else head, justify="right")
-        for row in rows:
-            table.add_row(*(_cell(k, row[k], unit=False, calc=name) for k in varying))
-        section(f"Results ({len(rows)} rows)", table)
+            table.add_column(f"{show.label} {show.unit}".strip(), justify="right")
+        for q in points:
+            table.add_row(*(_cell(k, q[k], unit=False, calc=name) for k in varying))
+        parts.append(table)
     if "result" in document:
-        pairs("Result", document["result"].items())
-    if document.get("peak"):
-        pairs("Peak (wavelength scan)", document["peak"].items())
+        result = Table(box=None, show_header=False, padding=(0, 1, 0, 2))
+        result.add_column(style="bold")
+        result.add_column(overflow="fold")
+        for key, value in document["result"].items():
+            show = _show(key, name)
+            if value is not None or show.none:
+                result.add_row(show.label, _cell(key, value, unit=True, calc=name))
+        parts += [result, Text("")]
     if document.get("summary"):
-        parts.append(Text(str(document["summary"]), style="bold"))
-    parts.append(Text(f"Method: {document['method']}", style="dim"))
+        parts.append(Text(f"→ {document['summary']}", style="bold"))
+    parts.append(Text(f"method: {document['method']}", style="dim"))
     return Group(*parts)

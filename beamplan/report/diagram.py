@@ -23,6 +23,7 @@ from typing import TYPE_CHECKING
 from beamplan.network.behaviour import Behaviour
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
+from beamplan.report.document import signed_percent
 from beamplan.units import format_power
 
 if TYPE_CHECKING:
@@ -188,9 +189,10 @@ def _box(network: Network, plan: Plan | None, members: list[str], binds: tuple[s
         r = plan.scanner(key) if plan else None
         lines = [key, f"need {format_power(node.need_w)}"]
         if r is None or r.status == "met":
-            lines += [f"gets {format_power(r.delivered_w)}, {r.headroom:+.1%}"] if r else []
+            lines += ([f"gets {format_power(r.delivered_w)}, {signed_percent(r.headroom)}"]
+                      if r else [])
             return Box(key, (key,), "scanner", tuple(lines), PALETTE["met"], binds=binds)
-        lines.append(f"{r.status} {format_power(r.shortfall_w)}, {r.headroom:+.1%}")
+        lines.append(f"{r.status} {format_power(r.shortfall_w)}, {signed_percent(r.headroom)}")
         return Box(key, (key,), "scanner", tuple(lines), PALETTE["paper"],
                    "xxxx" if r.status == "cut off" else "////", True, binds)
     e = got.get(key)
@@ -347,7 +349,7 @@ def diagram_model(network: Network, plan: Plan | None = None, *,
     subtitle = "layout only: no plan, so no powers" if plan is None else (
         f"goal {plan.goal}, {plan.status}: {format_power(plan.source_used_w)} drawn of "
         f"{format_power(plan.source_available_w)}, {format_power(plan.delivered_w)} delivered "
-        f"({plan.efficiency:.1%}), lowest headroom {plan.headroom_factor - 1:+.1%}")
+        f"({plan.efficiency:.1%}), lowest headroom {signed_percent(plan.headroom_factor - 1)}")
     return Diagram(f"{network.name}: power flow", subtitle, placed, drawn,
                    tuple(c * (width + GAP_IN) for c in range(max(column.values()) + 1)), width,
                    high - low, plan is not None, top)

@@ -21,6 +21,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.result import ElementResult, Plan
 from beamplan.report import CAUTION
 from beamplan.report.diagram import PALETTE, diagram_picture
+from beamplan.report.document import signed_percent
 from beamplan.report.plots import Picture, headroom_chart, losses_chart
 from beamplan.units import format_power
 
@@ -83,7 +84,7 @@ _SECTIONS = (("summary", "Summary"), ("scanners", "Scanners"), ("diagram", "Powe
 
 
 def pct(value: float) -> str:
-    return f"{value * 100:+.1f}%"
+    return signed_percent(value)
 
 
 def table(caption: str, header: Sequence[str], rows: Iterable[Sequence[str]],

@@ -19,6 +19,7 @@ from beamplan.analyses.compare import CaseOutcome, Comparison
 from beamplan.analyses.outages import SweepReport
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan, ScannerResult
+from beamplan.report.document import signed_number
 from beamplan.report.html import facts, figure, inline_svg, page, pct, table
 from beamplan.report.plots import headroom_across_cases, outage_impact
 from beamplan.units import format_power
@@ -50,27 +51,27 @@ def _date(date: datetime.date | str | None) -> str:
 
 
 def _signed(watts: float, scale: float = 1.0) -> str:
-    """A change of power with its sign, ``+12.0 W``, ``−1.20 kW``; ``0 W`` within
+    """A change of power with its sign, ``+12.0 W``, ``-1.20 kW``; ``0 W`` within
     :data:`SAME_RTOL` of ``scale`` (W).
 
     Examples
     --------
     >>> _signed(12.0), _signed(-1200.0), _signed(-1e-9, 6000.0)
-    ('+12.0 W', '−1.20 kW', '0 W')
+    ('+12.0 W', '-1.20 kW', '0 W')
     """
     if abs(watts) <= SAME_RTOL * max(abs(scale), 1.0):
         return "0 W"
-    return ("+" if watts > 0 else "−") + format_power(abs(watts))
+    return ("+" if watts > 0 else "-") + format_power(abs(watts))
 
 
 def _points(fraction: float) -> str:
     """A change of a fraction in signed percentage points, never ``-0.0``."""
-    return f"{round(100 * fraction, 1) + 0.0:+.1f}"
+    return signed_number(100 * fraction, 1)
 
 
 def _short(plan: Plan) -> str:
     short = [s for s in plan.scanners if s.status in ("short", "cut off")]
-    return ", ".join(f"{s.id} {s.status} −{format_power(s.shortfall_w)}" for s in short) \
+    return ", ".join(f"{s.id} {s.status} -{format_power(s.shortfall_w)}" for s in short) \
         or "none"
 
 
@@ -94,7 +95,7 @@ def _cases_table(comparison: Comparison) -> str:
     for c in comparison.cases:
         p = c.plan
         rows.append([c.name, p.status, f"{p.headroom_factor:.4f}",
-                     f"{p.headroom_factor - base.headroom_factor:+.4f}",
+                     signed_number(p.headroom_factor - base.headroom_factor, 4),
                      format_power(p.source_used_w),
                      _signed(p.source_used_w - base.source_used_w, base.source_used_w),
                      format_power(p.delivered_w),
@@ -235,7 +236,7 @@ def _outages_table(report: SweepReport) -> str:
     rows = [[str(rank), r.label, ", ".join(r.kinds), r.status, pct(r.headroom_factor - 1),
              _points(r.headroom_lost), format_power(r.delivered_lost_w),
              ", ".join(r.cut_off) or "-",
-             ", ".join(f"{sid} −{format_power(w)}" for sid, w in r.short
+             ", ".join(f"{sid} -{format_power(w)}" for sid, w in r.short
                        if sid not in r.cut_off) or "-"]
             for rank, r in enumerate(report.results, start=1)]
     listed = table("Every outage case, most harmful first: scanners cut off, then scanners "

@@ -24,6 +24,7 @@ from typing import TYPE_CHECKING, Any, ParamSpec
 
 from beamplan.optimise.result import Plan
 from beamplan.report.diagram import PALETTE
+from beamplan.report.document import signed_percent
 from beamplan.report.files import write_atomic
 from beamplan.units import format_power
 
@@ -43,6 +44,7 @@ STYLE: dict[str, Any] = {
     "axes.labelcolor": PALETTE["ink"], "xtick.color": PALETTE["ink"],
     "ytick.color": PALETTE["ink"], "hatch.linewidth": 0.6, "axes.spines.top": False,
     "axes.spines.right": False, "legend.frameon": False,
+    "axes.unicode_minus": False,  # one minus sign in every report: ASCII
 }
 _METADATA: dict[str, dict[str, Any]] = {
     "svg": {"Date": None, "Creator": None, "Format": None, "Type": None},
@@ -162,13 +164,13 @@ def headroom_chart(plan: Plan) -> Picture:
                      label="max_power")]
     figure, ax = _axes(7.5, 0.3 + 0.26 * len(rows), _left(s.id for s in rows),
                        "Headroom per scanner", f"{plan.layout}, goal {plan.goal}: lowest "
-                       f"headroom {plan.headroom_factor - 1:+.1%}", legend)
+                       f"headroom {signed_percent(plan.headroom_factor - 1)}", legend)
     for i, s in enumerate(rows):
         short = s.status != "met"
         ax.barh(i, s.delivered_w, 0.56, color=PALETTE["paper" if short else "beam"],
                 edgecolor=ink, lw=0.6, hatch=("xxxx" if s.status == "cut off" else "////")
                 if short else None)
-        words = f"short {format_power(s.shortfall_w)}" if short else f"{s.headroom:+.1%}"
+        words = f"short {format_power(s.shortfall_w)}" if short else signed_percent(s.headroom)
         ax.annotate(words, (max(s.delivered_w, s.need_w, s.max_w or 0.0), i),
                     xytext=(6, 0), textcoords="offset points", va="center", fontsize=6.5)
     ax.plot([s.need_w for s in rows], range(len(rows)), ls="none", marker="|", ms=13,
@@ -245,7 +247,7 @@ def losses_chart(plan: Plan, by: str = "kind", top: int = 8) -> Picture:
         ax.bar(i, watts, 0.62, bottom=level - watts, color=PALETTE["heat-3"], edgecolor=ink,
                lw=0.6, hatch="..")
         ax.plot([i - 1.31, i + 0.31], [level, level], color=ink, lw=0.5, ls=":")
-        ax.annotate(f"−{format_power(watts)}", (i, level), xytext=(0, 2),
+        ax.annotate(f"-{format_power(watts)}", (i, level), xytext=(0, 2),
                     textcoords="offset points", ha="center", va="bottom", fontsize=6)
         level -= watts
     end = len(names) - 1
@@ -323,7 +325,7 @@ def _impact_words(r: OutageResult) -> str:
     if len(r.short) > len(r.cut_off):
         words.append(f"{len(r.short) - len(r.cut_off)} short")
     if r.delivered_lost_w > 0:
-        words.append(f"−{format_power(r.delivered_lost_w)} delivered")
+        words.append(f"-{format_power(r.delivered_lost_w)} delivered")
     return "; ".join(words) or "no loss"
 
 
@@ -359,8 +361,8 @@ def outage_impact(report: SweepReport, top: int = 20) -> Picture:
     figure, ax = _axes(max(7.5, 4.5 + right), 0.3 + 0.26 * max(len(rows), 1),
                        _left(r.label for r in rows), f"Outage impact: {report.layout}",
                        f"{shown} outage cases, ranked: scanners cut off, then short, then "
-                       f"headroom lost; base lowest headroom "
-                       f"{report.base.headroom_factor - 1:+.1%}" +
+                       "headroom lost; base lowest headroom "
+                       f"{signed_percent(report.base.headroom_factor - 1)}" +
                        (" (sweep interrupted)" if report.interrupted else ""), legend,
                        right=right)
     lost = [100 * r.headroom_lost for r in rows]

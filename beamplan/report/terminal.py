@@ -17,16 +17,19 @@ from rich.text import Text
 from beamplan.errors import Diagnostic
 from beamplan.network.behaviour import GIVEN
 from beamplan.optimise.result import ElementResult, Plan
+from beamplan.optimise.sizing import Sizing
 from beamplan.report import CAUTION
+from beamplan.report.document import signed_percent, signed_power
 from beamplan.units import format_power
 
-__all__ = ["PLURALS", "diagnostics_text", "plan_renderable", "plural", "status_note"]
+__all__ = ["PLURALS", "diagnostics_text", "plan_renderable", "plural", "signed_percent",
+           "signed_power", "status_note"]
 
 _STATUS_STYLE = {"met": "green", "short": "bold red", "cut off": "bold red"}
 
 
 def _pct(value: float) -> str:
-    return f"{value * 100:+.1f}%"
+    return signed_percent(value)
 
 
 def _setting(element: ElementResult) -> str:
@@ -248,7 +251,8 @@ def _shortfalls(plan: Plan) -> list[Any]:
     return out
 
 
-def plan_renderable(plan: Plan, *, elements: bool = True) -> Group:
+def plan_renderable(plan: Plan, *, elements: bool = True, sizing: Sizing | None = None
+                    ) -> Group:
     """The whole plan report as one rich renderable.
 
     Examples
@@ -268,6 +272,10 @@ def plan_renderable(plan: Plan, *, elements: bool = True) -> Group:
         if extra is not None:
             parts += [Text(""), extra]
     parts += [Text(""), _losses(plan), Text(""), _binding(plan)]
+    if sizing is not None:
+        from beamplan.report.sizing_view import sizing_renderable
+
+        parts += [Text(""), sizing_renderable(sizing)]
     parts.append(Text(CAUTION, style="dim italic"))
     return Group(*parts)
 
