@@ -22,6 +22,11 @@ if TYPE_CHECKING:
     from beamplan.optimise.result import Plan
 
 
+def __dir__() -> list[str]:
+    """The public names only (not the typing helpers this module uses)."""
+    return sorted(__all__)
+
+
 def load(path: str) -> Layout:
     """Load and validate a layout file (schema and graph checks).
 

@@ -10,7 +10,7 @@ import beamplan
 from beamplan.errors import LayoutError
 from beamplan.physics.demand import ScannerTool, required_if_power, throughput_at_power
 from beamplan.physics.gas import gas_transmission
-from beamplan.physics.multilayer import multilayer_reflectivity
+from beamplan.physics.multilayer import MOSI_INTERLAYERS, multilayer_reflectivity
 from beamplan.physics.optics import mirror_reflectivity, s_polarisation
 from tests.conftest import layout_from_text, network_from_text
 
@@ -72,9 +72,19 @@ def test_polarised_source_sets_s_and_p_by_the_mirror_plane() -> None:
 
 
 def test_multilayer_mirror_uses_parratt() -> None:
+    # Reference: the physics layer with the documented defaults of docs/layout-format.md
+    # (Ru cap 2 nm, 0.4 nm roughness, MoSi2 interlayers 1.0/0.5 nm).
     net = network_from_text(text("  m1: {kind: mirror, multilayer: {pair: Mo/Si, period: 6.9 nm,"
-                                 " bilayers: 40}, incidence: 3 deg}"))
-    expected = multilayer_reflectivity(("Mo", "Si"), 6.9e-9, 0.4, 40, math.radians(3), 13.5e-9)
+                                 " periods: 40}, incidence: 3 deg}"))
+    expected = multilayer_reflectivity(("Mo", "Si"), 6.9e-9, 0.4, 40, math.radians(3), 13.5e-9,
+                                       capping=("Ru", 2e-9), roughness_m=0.4e-9,
+                                       interlayers=MOSI_INTERLAYERS)
+    assert net.node["m1"].gain_max == pytest.approx(expected.reflectivity, rel=1e-12)
+    # A mirror's own roughness applies to its multilayer when the multilayer gives none.
+    net = network_from_text(text("  m1: {kind: mirror, multilayer: {periods: 40, cap: none, "
+                                 "interlayers: none}, roughness: 0.3 nm, incidence: 3 deg}"))
+    expected = multilayer_reflectivity(("Mo", "Si"), 6.9e-9, 0.4, 40, math.radians(3), 13.5e-9,
+                                       roughness_m=0.3e-9)
     assert net.node["m1"].gain_max == pytest.approx(expected.reflectivity, rel=1e-12)
 
 
@@ -151,7 +161,8 @@ def test_scanner_train_mirrors_from_a_computed_multilayer() -> None:
     # Reference: the Parratt multilayer of beamplan.physics.multilayer at the
     # layout wavelength, fed to the throughput model as the train's reflectivity.
     scanners = ("  s1: {dose: 30 mJ/cm^2, wph: 100, mirror_multilayer: {pair: Mo/Si, "
-                "period: 6.9 nm, bilayers: 50}, mirror_incidence: 5 deg}")
+                "period: 6.9 nm, periods: 50, cap: none, roughness: 0 nm, interlayers: none}, "
+                "mirror_incidence: 5 deg}")
     net = network_from_text(text("  m1: {kind: mirror, reflectivity: 0.9}", scanners))
     r = multilayer_reflectivity(("Mo", "Si"), 6.9e-9, 0.4, 50, math.radians(5), 13.5e-9)
     tool = ScannerTool(mirror_reflectivity=r.reflectivity)

@@ -223,7 +223,7 @@ def test_outage_is_respected() -> None:
     # Expected: with cn-tap2 failed, litho-c2 and litho-c3 cannot be reached: no limit
     # serves them, and the answers serve the other four (independent LP with linprog).
     with open(os.path.join(ROOT, "layouts", "overbooked.yaml")) as f:
-        text = f.read().replace("cn-tap2: {part: tap}", "cn-tap2: {part: tap, in_service: false}")
+        text = f.read().replace("cn-tap2: {part: tap}", "cn-tap2: {part: tap, offline: true}")
     net = network_of(text)
     plan = plan_network(net)
     sizing = what_it_takes(net, plan, "highs")

@@ -173,7 +173,8 @@ def _common(parser: argparse.ArgumentParser) -> None:
                         "replaced as a whole")
     parser.add_argument("--html", metavar="FILE", help="write a self-contained HTML report "
                         "(tables, chart, provenance) to FILE ('-' for stdout)")
-    parser.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto")
+    parser.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
+                        help="LP solver (default: HiGHS in process, CBC if highspy is missing)")
     parser.add_argument("-q", "--quiet", action="store_true", help="no terminal report")
     parser.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
 

@@ -8,6 +8,7 @@ To add a kind: write a reader here that returns a new
 
 from __future__ import annotations
 
+import contextlib
 import math
 from collections.abc import Callable
 from typing import Any
@@ -20,6 +21,7 @@ from beamplan.layout.model import (
     DumpSpec,
     ElementSpec,
     GasFillSpec,
+    InterlayerSpec,
     MirrorSpec,
     MultilayerSpec,
     OutputSpec,
@@ -27,6 +29,7 @@ from beamplan.layout.model import (
     SwitchSpec,
 )
 from beamplan.layout.reader import ID_PATTERN, MISSING, MapReader
+from beamplan.units import UnitError, parse_quantity
 
 __all__ = ["KINDS", "read_element"]
 
@@ -57,30 +60,105 @@ def _coating(r: MapReader) -> CoatingSpec | None:
     return CoatingSpec(material, density, delta, beta) if material else None
 
 
+#: Keys renamed in the multilayer mapping: old name -> new name.
+RENAMED_MULTILAYER_KEYS = {"bilayers": "periods", "gamma": "absorber_fraction",
+                           "capping": "cap", "capping_thickness": "cap_thickness"}
+#: The physical range of a multilayer's number of periods.
+PERIODS_RANGE = (1, 1000)
+
+
+def _periods(sub: MapReader, default: int) -> int | None:
+    value = sub.raw("periods")
+    if value is MISSING:
+        return default
+    low, high = PERIODS_RANGE
+    if isinstance(value, bool) or not isinstance(value, int) or not low <= value <= high:
+        sub.ctx.error("out-of-range", f"{sub.subject}: 'periods' is {value!r}, it must be a "
+                      f"whole number from {low} to {high}", sub.value_loc("periods"),
+                      "Mo/Si mirrors use 40 to 60 periods")
+        return None
+    return value
+
+
+def _interlayers(sub: MapReader, default: InterlayerSpec | None
+                 ) -> tuple[bool, InterlayerSpec | None]:
+    """Whether the interlayers read well, and what they are (None for ``none``)."""
+    value = sub.raw("interlayers")
+    if value is MISSING:
+        return True, default
+    if isinstance(value, str) and value.strip().lower() == "none":
+        return True, None
+    if not isinstance(value, dict):
+        sub.ctx.error("bad-type", f"{sub.subject}: 'interlayers' must be 'none' or a mapping "
+                      "{material, density, absorber_on_spacer, spacer_on_absorber}",
+                      sub.value_loc("interlayers"), "e.g. 'interlayers: none' for sharp "
+                      "interfaces (an ideal stack)")
+        return False, None
+    base = InterlayerSpec()
+    il = sub.sub("interlayers", f"{sub.subject} interlayers")
+    material = il.text("material", default=base.material).strip()
+    density = il.quantity("density", "density", minimum=0.0, strict_minimum=True,
+                          default=base.density_g_cm3 if material == base.material else None)
+    on_spacer = il.quantity("absorber_on_spacer", "length", minimum=0.0,
+                            default=base.absorber_on_spacer_m)
+    on_absorber = il.quantity("spacer_on_absorber", "length", minimum=0.0,
+                              default=base.spacer_on_absorber_m)
+    il.finish()
+    if on_spacer is None or on_absorber is None or (density is None and il.has("density")):
+        return False, None
+    return True, InterlayerSpec(material or base.material, density, on_spacer, on_absorber)
+
+
 def read_multilayer(r: MapReader, key: str = "multilayer") -> MultilayerSpec | None:
-    """Read a multilayer stack given under ``key`` (see docs/layout-format.md)."""
+    """Read a multilayer stack given under ``key`` (see docs/layout-format.md).
+
+    Every key is optional; the defaults are those of
+    :class:`~beamplan.layout.model.MultilayerSpec` (a realistic Mo/Si stack). The
+    MoSi2 interlayers apply by default to the Mo/Si pair only; ``interlayers: none``
+    gives sharp interfaces, and ``cap: none`` no cap. Without its own
+    ``roughness``, a mirror's multilayer takes the mirror's ``roughness`` if given.
+    """
     if r.mapping(key) is None:
         return None
+    base = MultilayerSpec()
     sub = r.sub(key, f"{r.subject} {key}")
-    pair = sub.text("pair", default="Mo/Si")
-    absorber, _, spacer = pair.partition("/")
-    if not absorber.strip() or not spacer.strip():
+    ok = True
+    for old, new in RENAMED_MULTILAYER_KEYS.items():
+        if sub.has(old):
+            sub.raw(old)
+            r.ctx.error("renamed-key", f"{sub.subject}: '{old}' is now called '{new}'",
+                        sub.key_loc(old), f"rename it to '{new}'")
+            ok = False
+    pair = sub.text("pair", default=f"{base.absorber}/{base.spacer}")
+    absorber, _, spacer = (part.strip() for part in pair.partition("/"))
+    if not absorber or not spacer:
         r.ctx.error("bad-value", f"{r.subject}: multilayer 'pair' must read absorber/spacer, "
                     f"got {pair!r}", sub.value_loc("pair"), "e.g. 'pair: Mo/Si'")
+        ok = False
+    period = sub.quantity("period", "length", default=base.period_m, minimum=0.0,
+                          strict_minimum=True)
+    fraction = sub.quantity("absorber_fraction", "fraction", default=base.absorber_fraction,
+                            minimum=0.0, maximum=1.0)
+    periods = _periods(sub, base.periods)
+    cap_text = sub.text("cap", default=base.cap or "none").strip()
+    cap = None if cap_text.lower() in ("none", "") else cap_text
+    cap_m = sub.quantity("cap_thickness", "length", default=base.cap_thickness_m,
+                         minimum=0.0)
+    substrate = sub.text("substrate", default=base.substrate)
+    rough_default = base.roughness_m
+    if not sub.has("roughness") and key == "multilayer" and r.has("roughness"):
+        with contextlib.suppress(UnitError):  # the mirror's own reader reports it
+            rough_default = parse_quantity(r.data["roughness"], "length")
+    roughness = sub.quantity("roughness", "length", default=rough_default, minimum=0.0)
+    is_mosi = (absorber, spacer) == (base.absorber, base.spacer)
+    read_ok, interlayers = _interlayers(sub, base.interlayers if is_mosi else None)
+    sub.finish(tuple(RENAMED_MULTILAYER_KEYS))
+    if not (ok and read_ok) or None in (period, fraction, periods, cap_m, roughness):
         return None
-    period = sub.quantity("period", "length", default=6.9e-9, minimum=0.0, strict_minimum=True)
-    gamma = sub.quantity("gamma", "fraction", default=0.4, minimum=0.0, maximum=1.0)
-    bilayers = sub.integer("bilayers", default=50, minimum=1)
-    capping = sub.text("capping") or None
-    capping_m = sub.quantity("capping_thickness", "length", default=2e-9 if capping else 0.0,
-                             minimum=0.0)
-    substrate = sub.text("substrate", default="SiO2")
-    roughness = sub.quantity("roughness", "length", default=0.0, minimum=0.0)
-    sub.finish()
-    if None in (period, gamma, capping_m, roughness):
-        return None
-    return MultilayerSpec(absorber.strip(), spacer.strip(), period or 0.0, gamma or 0.0,
-                          bilayers, capping, capping_m or 0.0, substrate, roughness or 0.0)
+    assert period is not None and fraction is not None and periods is not None
+    assert cap_m is not None and roughness is not None
+    return MultilayerSpec(absorber, spacer, period, fraction, periods, cap,
+                          cap_m if cap else 0.0, substrate, roughness, interlayers)
 
 
 def _mirror(r: MapReader, common: Common) -> ElementSpec | None:

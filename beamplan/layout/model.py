@@ -20,6 +20,7 @@ __all__ = [
     "DumpSpec",
     "ElementSpec",
     "GasFillSpec",
+    "InterlayerSpec",
     "Layout",
     "LinkSpec",
     "MirrorSpec",
@@ -118,18 +119,33 @@ class CoatingSpec:
 
 
 @dataclass(frozen=True)
+class InterlayerSpec:
+    """Interdiffusion layers of a multilayer; the defaults are MoSi2 in sputtered Mo/Si."""
+
+    material: str = "MoSi2"
+    density_g_cm3: float | None = 6.2
+    absorber_on_spacer_m: float = 1.0e-9
+    spacer_on_absorber_m: float = 0.5e-9
+
+
+@dataclass(frozen=True)
 class MultilayerSpec:
-    """A periodic multilayer: absorber/spacer pair on a substrate."""
+    """A periodic multilayer: absorber/spacer pair on a substrate.
+
+    The defaults are the documented defaults of docs/layout-format.md: a realistic
+    Mo/Si stack (Ru cap, MoSi2 interlayers, 0.4 nm interface roughness).
+    """
 
     absorber: str = "Mo"
     spacer: str = "Si"
     period_m: float = 6.9e-9
-    gamma: float = 0.4
-    bilayers: int = 50
-    capping: str | None = None
-    capping_m: float = 0.0
+    absorber_fraction: float = 0.4
+    periods: int = 50
+    cap: str | None = "Ru"
+    cap_thickness_m: float = 2.0e-9
     substrate: str = "SiO2"
-    roughness_m: float = 0.0
+    roughness_m: float = 0.4e-9
+    interlayers: InterlayerSpec | None = InterlayerSpec()
 
 
 @dataclass(frozen=True)

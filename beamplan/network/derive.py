@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 from beamplan.layout.model import (
     DemandSpec,
@@ -21,8 +22,11 @@ from beamplan.layout.model import (
     SourceSpec,
 )
 
-__all__ = ["ScannerDemand", "drift_transmission", "mirror_gain", "scanner_demand",
-           "source_check"]
+if TYPE_CHECKING:
+    from beamplan.physics.multilayer import Interlayers
+
+__all__ = ["ScannerDemand", "describe_multilayer", "drift_transmission", "mirror_gain",
+           "physics_interlayers", "scanner_demand", "source_check", "stack_reflectivity"]
 
 
 def mirror_gain(spec: MirrorSpec, wavelength_m: float, s_polarisation: float
@@ -62,25 +66,61 @@ def mirror_gain(spec: MirrorSpec, wavelength_m: float, s_polarisation: float
             f"Fresnel with Névot–Croce ({source})")
     ml = spec.multilayer
     assert ml is not None and spec.incidence_rad is not None
-    reflectivity = _stack(ml, spec.incidence_rad, wavelength_m, s_polarisation,
-                          ml.roughness_m or spec.roughness_m)
-    cap = f", {ml.capping} cap" if ml.capping else ""
+    reflectivity = stack_reflectivity(ml, spec.incidence_rad, wavelength_m, s_polarisation)
     return reflectivity, (
-        f"{ml.absorber}/{ml.spacer} × {ml.bilayers}, period {ml.period_m * 1e9:.2f} nm{cap}, "
-        f"{math.degrees(spec.incidence_rad):.1f} deg incidence{pol}: Parratt recursion "
-        "(Henke tables)")
+        f"{describe_multilayer(ml)}, {math.degrees(spec.incidence_rad):.1f} deg "
+        f"incidence{pol}: Parratt recursion with Névot–Croce roughness (Henke tables)")
 
 
-def _stack(ml: MultilayerSpec, incidence_rad: float, wavelength_m: float,
-           s_polarisation: float, roughness_m: float) -> float:
-    """A multilayer spec's reflectivity (Parratt recursion, Henke tables)."""
+def describe_multilayer(ml: MultilayerSpec) -> str:
+    """A multilayer spec in a few words, for provenance and warnings.
+
+    Examples
+    --------
+    >>> describe_multilayer(MultilayerSpec())
+    'Mo/Si × 50, period 6.90 nm, Ru cap 2.0 nm, MoSi2 interlayers 1.0/0.5 nm, roughness 0.40 nm'
+    """
+    cap = f", {ml.cap} cap {ml.cap_thickness_m * 1e9:.1f} nm" if ml.cap else ""
+    il = ml.interlayers
+    inter = ("" if il is None else f", {il.material} interlayers "
+             f"{il.absorber_on_spacer_m * 1e9:.1f}/{il.spacer_on_absorber_m * 1e9:.1f} nm")
+    rough = f", roughness {ml.roughness_m * 1e9:.2f} nm" if ml.roughness_m else ""
+    return (f"{ml.absorber}/{ml.spacer} × {ml.periods}, period {ml.period_m * 1e9:.2f} nm"
+            f"{cap}{inter}{rough}")
+
+
+def stack_reflectivity(ml: MultilayerSpec, incidence_rad: float, wavelength_m: float,
+           s_polarisation: float) -> float:
+    """A multilayer spec's reflectivity (Parratt recursion, Henke tables).
+
+    Examples
+    --------
+    >>> round(stack_reflectivity(MultilayerSpec(), 0.0, 13.5e-9, 0.0), 3)
+    0.7
+    """
     from beamplan.physics.multilayer import multilayer_reflectivity
 
-    capping = (ml.capping, ml.capping_m) if ml.capping else None
-    return multilayer_reflectivity((ml.absorber, ml.spacer), ml.period_m, ml.gamma,
-                                   ml.bilayers, incidence_rad, wavelength_m, capping=capping,
-                                   substrate=ml.substrate, roughness_m=roughness_m,
-                                   polarisation=s_polarisation).reflectivity
+    return multilayer_reflectivity((ml.absorber, ml.spacer), ml.period_m, ml.absorber_fraction,
+                                   ml.periods, incidence_rad, wavelength_m,
+                                   capping=(ml.cap, ml.cap_thickness_m) if ml.cap else None,
+                                   substrate=ml.substrate, roughness_m=ml.roughness_m,
+                                   polarisation=s_polarisation,
+                                   interlayers=physics_interlayers(ml)).reflectivity
+
+
+def physics_interlayers(ml: MultilayerSpec) -> Interlayers | None:
+    """The physics layer's :class:`~beamplan.physics.multilayer.Interlayers` of a spec.
+
+    Examples
+    --------
+    >>> physics_interlayers(MultilayerSpec()).material
+    'MoSi2'
+    """
+    from beamplan.physics.multilayer import Interlayers
+
+    il = ml.interlayers
+    return None if il is None else Interlayers(il.material, il.absorber_on_spacer_m,
+                                               il.spacer_on_absorber_m, il.density_g_cm3)
 
 
 def drift_transmission(spec: DriftSpec, wavelength_m: float) -> tuple[float, str]:
@@ -145,8 +185,8 @@ def scanner_demand(spec: DemandSpec, wavelength_m: float) -> ScannerDemand:
                      else value) for name, value in spec.tool}
     if spec.train_multilayer is not None:
         ml = spec.train_multilayer
-        fields["mirror_reflectivity"] = _stack(ml, spec.train_incidence_rad, wavelength_m, 0.0,
-                                               ml.roughness_m)
+        fields["mirror_reflectivity"] = stack_reflectivity(ml, spec.train_incidence_rad,
+                                                           wavelength_m, 0.0)
     tool = ScannerTool(**fields)  # type: ignore[arg-type]
     dose, set_by = spec.dose_j_m2, "recipe"
     if spec.critical_area_m2 is not None:

@@ -245,6 +245,7 @@ def build_network(layout: Layout) -> Network:
     ['halo-fel']
     """
     from beamplan.network.checks import check_graph, heat_limit_warnings
+    from beamplan.network.offpeak import multilayer_warnings
 
     nodes, physics_errors = _nodes(layout)
     links = tuple(Link(i, spec.tail, spec.head, spec.port, spec.head_location,
@@ -255,6 +256,7 @@ def build_network(layout: Layout) -> Network:
         raise LayoutError([*layout.warnings, *problems])
     network = Network(layout.name, layout.file, layout.wavelength_m,
                       tuple(nodes[i] for i in order), links, layout.sha256)
-    warnings = (*layout.warnings, *problems, *heat_limit_warnings(network))
+    warnings = (*layout.warnings, *problems, *heat_limit_warnings(network),
+                *multilayer_warnings(layout))
     return Network(network.name, network.file, network.wavelength_m, network.nodes,
                    network.links, network.sha256, tuple(warnings))

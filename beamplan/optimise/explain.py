@@ -29,7 +29,7 @@ from beamplan.optimise.lp import LpModel, Row
 from beamplan.optimise.result import Binding, Flows
 from beamplan.units import format_power
 
-__all__ = ["binding_constraints", "shortfall_limits"]
+__all__ = ["binding_constraints", "shortfall_limits", "watts"]
 
 _FAMILIES = ("heat", "available", "max-power", "share-low", "share-high", "range-low",
              "range-high", "demand")
@@ -67,25 +67,45 @@ def _price(row: Row, dual: float, primary: str, flows: Flows) -> tuple[float, st
     return (per if primary == "factor" else -per), unit
 
 
+def watts(power_w: float, *, signed: bool = False) -> str:
+    """A power for a price: three figures in W, with a prefix from 1 kW (no e-notation).
+
+    Examples
+    --------
+    >>> watts(9040.0), watts(4.4412, signed=True), watts(0.0123)
+    ('9.04 kW', '+4.44 W', '0.0123 W')
+    """
+    sign = ("+" if power_w >= 0 else "-") if signed else ("-" if power_w < 0 else "")
+    magnitude = abs(power_w)
+    if magnitude >= 999.5:
+        text = format_power(magnitude)
+    elif magnitude >= 1e-3:
+        text = f"{magnitude:.3g} W"
+    else:
+        text = format_power(magnitude)
+    return sign + text
+
+
 def _meaning(row: Row, price: float, unit: str, primary: str,
              bottleneck: Sequence[tuple[str, float]], tiers: int) -> str:
     if row.family == "demand":
         if primary == "source":
-            return f"each W more needed here costs {price:.3g} W of source power"
-        return f"each W more needed here adds {price:.3g} W of weighted shortfall"
+            return f"each W more needed here costs {watts(price)} of source power"
+        return f"each W more needed here adds {watts(price)} of weighted shortfall"
     step = "1 W more" if unit == "per W" else "1 percentage point more"
     if primary == "factor":
         verb = "raises" if price >= 0 else "lowers"
-        gains = ", ".join(f"{sid} {price * need:+.3g} W" for sid, need in bottleneck[:3])
+        gains = ", ".join(f"{sid} {watts(price * need, signed=True)}"
+                          for sid, need in bottleneck[:3])
         more = " ..." if len(bottleneck) > 3 else ""
         return f"{step} {verb} the lowest headroom factor by {abs(price):.3g} ({gains}{more})"
     if primary == "source":
         verb = "costs" if price > 0 else "saves"
-        return f"{step} {verb} {abs(price):.3g} W of source power"
+        return f"{step} {verb} {watts(abs(price))} of source power"
     verb = "adds" if price > 0 else "cuts"
     what = "the shortfall" if tiers <= 1 else "the tier-weighted shortfall (a tier-1 W counts " \
         "1000× a tier-2 W)"
-    return f"{step} {verb} {abs(price):.3g} W of {what}"
+    return f"{step} {verb} {watts(abs(price))} of {what}"
 
 
 def binding_constraints(model: LpModel, outcome: GoalOutcome, flows: Flows

@@ -265,9 +265,9 @@ def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
     (True, True, False)
     """
     when = date if isinstance(date, str) else (date or datetime.date.today()).isoformat()
-    short = [s for s in plan.scanners if s.status != "met"]
-    status = plan.status.upper() + (f" ({len(short)} of {len(plan.scanners)} scanners short)"
-                                    if short else "")
+    from beamplan.report.terminal import status_note
+
+    status = plan.status.upper() + status_note(plan).replace("  (", " (")
     summary = [("layout", plan.layout), ("goal", plan.goal), ("status", status),
                ("source", f"{format_power(plan.source_used_w)} used of "
                           f"{format_power(plan.source_available_w)} available"),

@@ -22,7 +22,8 @@ from beamplan.report import CAUTION
 from beamplan.report.document import signed_percent, signed_power
 from beamplan.units import format_power
 
-__all__ = ["diagnostics_text", "plan_renderable", "signed_percent", "signed_power"]
+__all__ = ["PLURALS", "diagnostics_text", "plan_renderable", "plural", "signed_percent",
+           "signed_power", "status_note"]
 
 _STATUS_STYLE = {"met": "green", "short": "bold red", "cut off": "bold red"}
 
@@ -50,9 +51,7 @@ def _header(plan: Plan) -> Table:
     grid.add_column(style="bold")
     grid.add_column()
     status = Text(plan.status.upper(), style=_STATUS_STYLE.get(plan.status, ""))
-    short = [s for s in plan.scanners if s.status != "met"]
-    if short:
-        status.append(f"  ({len(short)} of {len(plan.scanners)} scanners short)")
+    status.append(status_note(plan))
     grid.add_row("layout", f"{plan.layout}  ({plan.file})")
     grid.add_row("goal", plan.goal)
     grid.add_row("status", status)
@@ -180,6 +179,40 @@ def _settings(plan: Plan) -> Table | None:
     return table
 
 
+def status_note(plan: Plan) -> str:
+    """What follows the status word: scanners short (of those in service) and offline.
+
+    Examples
+    --------
+    >>> import beamplan
+    >>> status_note(beamplan.plan("layouts/pilot-line.yaml"))
+    ''
+    """
+    working = [s for s in plan.scanners if s.status != "out of service"]
+    short = sum(s.status != "met" for s in working)
+    offline = len(plan.scanners) - len(working)
+    note = f"  ({short} of {len(working)} {plural('scanner', len(working))} short)" if short \
+        else ""
+    return note + (f", {offline} {plural('scanner', offline)} offline" if offline else "")
+
+
+#: Plurals of the words the report counts (element kinds, scanners, sources).
+PLURALS = {"mirror": "mirrors", "splitter": "splitters", "attenuator": "attenuators",
+           "drift": "drifts", "dump": "dumps", "switch": "switches", "source": "sources",
+           "scanner": "scanners"}
+
+
+def plural(word: str, count: int = 2) -> str:
+    """``word`` for a count of one, its plural from :data:`PLURALS` otherwise.
+
+    Examples
+    --------
+    >>> plural("switch"), plural("mirror", 1)
+    ('switches', 'mirror')
+    """
+    return word if count == 1 else PLURALS[word]
+
+
 def _losses(plan: Plan) -> Table:
     table = titled_table("Where the source power goes")
     table.add_column("destination")
@@ -187,7 +220,7 @@ def _losses(plan: Plan) -> Table:
     table.add_column("share", justify="right")
     total = plan.losses.source_w or 1.0
     rows = [("delivered to scanners", plan.losses.delivered_w)]
-    rows += [(f"absorbed in {kind}s", value) for kind, value in plan.losses.by_kind]
+    rows += [(f"absorbed in {plural(kind)}", value) for kind, value in plan.losses.by_kind]
     rows.append(("dumped", plan.losses.dumped_w))
     for name, value in rows:
         table.add_row(name, format_power(value), f"{value / total:.1%}")
@@ -243,9 +276,6 @@ def plan_renderable(plan: Plan, *, elements: bool = True, sizing: Sizing | None 
         from beamplan.report.sizing_view import sizing_renderable
 
         parts += [Text(""), sizing_renderable(sizing)]
-    if plan.warnings:
-        parts.append(Text(f"{len(plan.warnings)} warning(s) from the layout check; run "
-                          "'beamplan check' to see them.", style="dim"))
     parts.append(Text(CAUTION, style="dim italic"))
     return Group(*parts)
 
