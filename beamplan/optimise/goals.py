@@ -19,10 +19,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from beamplan.errors import InternalError
 from beamplan.network.behaviour import Node
 from beamplan.optimise.backend import INF, Backend, RawSolution
 from beamplan.optimise.lp import LpModel
+from beamplan.optimise.magnitudes import solver_failure
 
 __all__ = ["GOALS", "GoalOutcome", "run_goal"]
 
@@ -63,8 +63,7 @@ class _Driver:
         sol = self.b.solve()
         self.stages += 1
         if sol.status != "optimal" and not allow_infeasible:
-            raise InternalError(f"the LP stage {self.stages} ended {sol.status}; this is a "
-                                "bug in beamplan, please report it with the layout")
+            raise solver_failure(self.stages, sol.status)
         return sol
 
     @property
