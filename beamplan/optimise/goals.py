@@ -86,8 +86,10 @@ class _Driver:
         row = self.m.demand_row[sid]
         self.b.set_coefficient(row, self.m.factor_col, 0.0)
         held = max(level, 0.0) * self.need(sid)
-        # A relative give, and an absolute one for scanners that get milliwatts.
-        self.b.set_rhs(row, max(held * (1.0 - self.b.freeze_slack) - self.b.freeze_abs_w, 0.0))
+        # A relative give, and an absolute one for scanners that get milliwatts, scaled
+        # down with the need so that a micro-watt scanner is not held 1 % low.
+        give = min(self.b.freeze_abs_w, 1e-4 * self.need(sid))
+        self.b.set_rhs(row, max(held * (1.0 - self.b.freeze_slack) - give, 0.0))
 
     def factor_bounds(self, low: float, high: float) -> None:
         self.b.set_bounds(self.m.factor_col, low, high)

@@ -13,13 +13,12 @@ import math
 
 from beamplan.errors import Diagnostic, LayoutError
 from beamplan.network.graph import Network
-from beamplan.units import format_power
 
 __all__ = ["MAX_POWER_W", "MIN_POWER_W", "check_magnitudes", "solver_failure"]
 
 MIN_POWER_W = 1e-6
 MAX_POWER_W = 1e7
-_RANGE = f"between {format_power(MIN_POWER_W)} and {format_power(MAX_POWER_W)}"
+_RANGE = "between 1 µW (1e-6 W) and 10 MW (1e7 W)"
 
 
 def _bad(value: float | None, zero_ok: bool) -> bool:
