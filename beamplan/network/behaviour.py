@@ -104,6 +104,7 @@ class Node:
     surplus: str = "turn-down"
     ceiling_w: float | None = None
     max_given_w: float | None = None
+    cap_at_useful: bool = True
 
     @property
     def is_source(self) -> bool:
@@ -301,5 +302,5 @@ def scanner_node(spec: ScannerSpec, wavelength_m: float = 13.5e-9) -> Node:
     node = Node(id=spec.id, kind="scanner", behaviour=Behaviour.SINK, ports=(),
                 need_w=need, max_w=bound, priority=spec.priority,
                 provenance=how, location=spec.location, demand=demand,
-                ceiling_w=ceiling, max_given_w=spec.max_w)
+                ceiling_w=ceiling, max_given_w=spec.max_w, cap_at_useful=spec.cap_at_useful)
     return node if spec.in_service else out_of_service(node)
