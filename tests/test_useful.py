@@ -112,9 +112,9 @@ def test_surplus_modes_small(tmp_path: pathlib.Path, mode: str) -> None:
 def test_surplus_modes_coated_line(tmp_path: pathlib.Path) -> None:
     text = pathlib.Path(COATED).read_text(encoding="utf-8")
     att = tmp_path / "att.yaml"
-    att.write_text(text.replace("    electrical: 14 MW\n",
-                                "    electrical: 14 MW\n    surplus: attenuate\n"),
-                   encoding="utf-8")
+    anchor = "    polarisation: 0.95"
+    assert anchor in text
+    att.write_text(text.replace(anchor, "    surplus: attenuate\n" + anchor), encoding="utf-8")
     plan = beamplan.plan(str(att))
     base = beamplan.plan(COATED)
     assert base.surplus_mode == "turn-down" and base.unused_w > 5000.0
@@ -123,9 +123,7 @@ def test_surplus_modes_coated_line(tmp_path: pathlib.Path) -> None:
     for s in plan.scanners:
         assert s.delivered_w == pytest.approx(base.scanner(s.id).delivered_w, rel=1e-7)
     dump = tmp_path / "dump.yaml"
-    dump.write_text(text.replace("    electrical: 14 MW\n",
-                                 "    electrical: 14 MW\n    surplus: dump\n"),
-                    encoding="utf-8")
+    dump.write_text(text.replace(anchor, "    surplus: dump\n" + anchor), encoding="utf-8")
     with pytest.raises(LayoutError, match="no dump is reachable"):
         beamplan.plan(str(dump))  # coated-line has no dump
 
