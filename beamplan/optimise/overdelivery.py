@@ -93,7 +93,7 @@ def _goal_reason(model: LpModel, outcome: GoalOutcome, node: Node, delivered_w: 
     held = [r for r in limits if not r.startswith(("the available power is shared",
                                                      "the power it could get is shared"))]
     why = "; ".join(held) if held else "the light it could get is shared with the others"
-    return f"the {goal} goal shares out the spare light; it rose until the {why}"
+    return f"the {goal} goal shares out the spare light, until: {why}"
 
 
 def over_delivery_reasons(model: LpModel, outcome: GoalOutcome, flows: Flows,

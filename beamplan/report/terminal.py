@@ -236,9 +236,12 @@ def _over(plan: Plan) -> list[Any]:
     if not over:
         return []
     out: list[Any] = [Text("Why scanners get more than their need", style="bold")]
-    for s in over:
-        text = Text(f"  {s.id} {_pct(s.headroom)}: ", style="bold")
-        text.append(s.over_delivery_reason)
+    groups: dict[str, list[str]] = {}
+    for s in over:  # scanners with the same reason share one line
+        groups.setdefault(s.over_delivery_reason, []).append(f"{s.id} {_pct(s.headroom)}")
+    for reason, names in groups.items():
+        text = Text(f"  {', '.join(names)}: ", style="bold")
+        text.append(reason)
         out.append(text)
     return out
 
