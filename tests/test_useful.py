@@ -254,3 +254,14 @@ def test_json_fields(tmp_path: pathlib.Path, capsys: pytest.CaptureFixture[str])
 def test_ceiling_matches_physics() -> None:
     assert useful_ceiling_w(ScannerTool(), 300.0) == pytest.approx(_ceiling_default_tool(),
                                                                    rel=1e-8)
+
+
+@pytest.mark.parametrize("value", ["0 W", "1 kW"])
+def test_case_electrical_below_the_euv_power(capsys: pytest.CaptureFixture[str],
+                                             value: str) -> None:
+    # fel-main gives 11 kW of EUV (layouts/two-bay.yaml): a draw of 0 W or 1 kW cannot
+    # feed it (energy conservation); once a ValueError deep in the physics.
+    code = main(["cases", TWO_BAY, "--set", f"fel-main.electrical={value}"])
+    err = capsys.readouterr().err
+    assert code == 1, err
+    assert "below its EUV power" in err and "Traceback" not in err

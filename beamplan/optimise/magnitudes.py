@@ -66,8 +66,29 @@ def check_magnitudes(network: Network) -> None:
             refuse(node.id, "scanner", "max_power", node.max_given_w or 0.0, node.location)
         if _bad(node.heat_limit_w, True):
             refuse(node.id, node.kind, "heat_limit", node.heat_limit_w or 0.0, node.location)
+    problems += _wall_plug(network)
     if problems:
         raise LayoutError(problems)
+
+
+def _wall_plug(network: Network) -> list[Diagnostic]:
+    """A source's electrical draw must cover its EUV output (a case may change either)."""
+    out = []
+    for node in network.sources:
+        full, fixed = node.electrical_w, node.electrical_fixed_w
+        if full is None or not node.in_service:
+            continue
+        if not (math.isfinite(full) and full > 0 and full >= node.available_w):
+            out.append(Diagnostic(
+                "error", "out-of-range", f"source '{node.id}': electrical draw {full:.3g} W at "
+                f"full output is below its EUV power {node.available_w:.3g} W", node.location,
+                "a source cannot give more light than it draws; raise 'electrical'"))
+        elif fixed > full:
+            out.append(Diagnostic(
+                "error", "out-of-range", f"source '{node.id}': electrical_fixed {fixed:.3g} W is "
+                f"above the draw at full output {full:.3g} W", node.location,
+                "the fixed part is part of the draw at full output"))
+    return out
 
 
 def solver_failure(stage: int, status: str) -> LayoutError:

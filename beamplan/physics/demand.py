@@ -218,12 +218,10 @@ def stage_limit_if_power_w(tool: ScannerTool, dose_j_m2: float) -> float:
 def useful_ceiling_w(tool: ScannerTool, dose_j_m2: float) -> float:
     """The useful ceiling: the IF power above which more light buys no throughput.
 
-    Method (common practice, no source; the scanner throughput model of the module
-    docstring): the scan speed is ``v = min(v_stage, (1 − m) T P_IF / (D L))``, so
-    throughput rises with IF power only until the power-limited speed reaches the
-    stage's maximum. That happens at ``P_IF = D L v_stage / ((1 − m) T)``; above it
-    the stage, not the light, sets the wafer rate. The planner uses this as the
-    scanner's upper bound unless the layout opts out.
+    Method (common practice, no source; the throughput model of the module docstring):
+    the scan speed ``v = min(v_stage, (1 − m) T P_IF / (D L))`` rises with IF power only
+    until it reaches the stage's maximum, at ``P_IF = D L v_stage / ((1 − m) T)``; above
+    it the stage, not the light, sets the wafer rate. The planner bounds the scanner by it.
 
     Parameters
     ----------
@@ -241,8 +239,6 @@ def useful_ceiling_w(tool: ScannerTool, dose_j_m2: float) -> float:
     --------
     >>> round(useful_ceiling_w(ScannerTool(), 300.0), 1)  # 30 mJ/cm², 0.8 m/s stage
     487.6
-    >>> throughput_at_power(ScannerTool(), 300.0, 487.6).limit
-    'power'
     >>> throughput_at_power(ScannerTool(), 300.0, 487.7).limit
     'stage'
     """
