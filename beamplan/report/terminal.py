@@ -85,8 +85,10 @@ def surplus_words(plan: Plan) -> str:
     if plan.surplus_mode == "turn-down" or not plan.surplus_to:
         return unused
     where = ", ".join(f"{eid} {format_power(w)}" for eid, w in plan.surplus_to)
-    verb = "dumped" if plan.surplus_mode == "dump" else f"sent to {plan.surplus_mode}"
-    return f"{format_power(plan.surplus_w)} of surplus {verb} ({where}); {unused}"
+    into = "dumps" if plan.surplus_mode == "dump" else "attenuators" \
+        if plan.surplus_mode == "attenuate" else "dumps and attenuators"
+    return (f"{format_power(plan.surplus_w)} more drawn for the {into} ({where}; the rest "
+            f"is absorbed on the way); {unused}")
 
 
 def _scanners(plan: Plan) -> Table:
