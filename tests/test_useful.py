@@ -274,3 +274,30 @@ def test_report_says_where_the_surplus_went(tmp_path: pathlib.Path,
     # Hand calculation in test_surplus_modes_small: 1219.05 W to d1, 561.9 W unused.
     assert "more drawn for the dumps (d1 1.22 kW" in out
     assert "power left unused at the source: 561.9 W of 3.00 kW available" in out
+
+
+SPAN = """\
+layout: span
+format: 1
+sources: {src: {power: 1e7 W}}
+elements:
+  t1: {kind: splitter, outputs: {a: {fraction: [0.1, 0.9]}, b: {}}}
+  m1: {kind: mirror, reflectivity: 0.9, heat_limit: 1e7 W}
+scanners:
+  s1: {power: NEED}
+  s2: {power: 1e7 W, max_power: 1e7 W}
+beamlines: ['src -> m1 -> t1', 't1.a -> s1', 't1.b -> s2']
+"""
+
+
+@pytest.mark.parametrize("need", ["1e-6 W", "3e-5 W"])
+@pytest.mark.parametrize("goal", ["headroom", "priority"])
+def test_powers_spanning_thirteen_decades(tmp_path: pathlib.Path, need: str, goal: str) -> None:
+    # Regression: simplex ended "unbounded" in stage 1 (exit 4, then exit 1); the
+    # interior-point retry solves it. Hand calculation: 9 MW leave m1; s2 needs 10 MW
+    # and can get at most 0.9 × 9 MW = 8.1 MW, so the common factor is 0.81.
+    path = tmp_path / "span.yaml"
+    path.write_text(SPAN.replace("NEED", need), encoding="utf-8")
+    plan = beamplan.plan(str(path), goal=goal)
+    assert plan.headroom_factor == pytest.approx(0.81, rel=1e-6)
+    assert plan.scanner("s2").delivered_w == pytest.approx(8.1e6, rel=1e-6)
