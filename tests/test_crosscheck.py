@@ -12,7 +12,13 @@ behaviours from their documentation (beamplan/network/behaviour.py):
 * ABSORB (dump): absorbs all of its input;
 * a switch with ``select`` passes only the selected input (the others carry 0);
 * a source's output is the power on its link, at most its available power;
-* a scanner's input is at most its ``max_power``;
+* a scanner's input is at most its ``max_power``, and a scanner given by dose
+  and wph at most its useful ceiling (unless ``cap_at_useful: false``): the IF
+  power D L v_stage / ((1 − m) T_IF→wafer) at which the stage reaches full
+  speed, computed here from the tool's own numbers (the throughput model of
+  shared/README.md);
+* surplus modes: with every scanner's input pinned, the most power dumps (or
+  adjustable attenuators) can absorb.
 * ``heat_limit``: absorbed ≤ limit.
 
 Checks (each against the reference LP):
@@ -56,6 +62,26 @@ BLOCK_RTOL = 1e-7  # a scanner that cannot rise by more than this (relative) ...
 BLOCK_OF_P = 1e-8  # ... plus this times the available source power (W) is blocked
 FLOOR_SLACK = 1e-9  # floors met by an earlier solution are relaxed by this (relative)
 RETRY_OF_P = (1e-13, 1e-11, 1e-9)  # ... and, when still infeasible, by this × P × gain
+
+
+def upper_bound(node: Node) -> float | None:
+    """A scanner's upper bound: max_power, and the useful ceiling of a dose/wph scanner.
+
+    The ceiling is computed here from the tool's numbers (scanner throughput
+    model, shared/README.md): P_IF = D × slit length × v_stage ÷ ((1 − m) × R^n ×
+    R_mask × T_pellicle² × other losses).
+    """
+    bound = node.max_given_w
+    demand = node.demand
+    if demand is not None and node.cap_at_useful:
+        tool = demand.tool
+        transmission = (tool.mirror_reflectivity ** tool.mirror_reflections
+                        * tool.mask_reflectivity * tool.pellicle_transmission ** 2
+                        * tool.other_losses_factor)
+        ceiling = (demand.dose_j_m2 * tool.field_width_m * tool.stage_max_speed_m_s
+                   / ((1.0 - tool.dose_control_margin) * transmission))
+        bound = ceiling if bound is None else min(bound, ceiling)
+    return bound
 
 
 def network_of(text: str, name: str = "generated.yaml") -> Network:
@@ -146,18 +172,23 @@ class ReferenceLp:
         elif b is Behaviour.ABSORB:
             absorbed = self._in(node.id)
         elif b is Behaviour.SINK:
-            if node.max_w is not None and node in self.scanners:
-                self.ub.append((self._in(node.id), node.max_w))
+            bound = upper_bound(node)
+            if bound is not None and node in self.scanners:
+                self.ub.append((self._in(node.id), bound))
             return
         if node.heat_limit_w is not None and absorbed is not None:
             self.ub.append((absorbed, node.heat_limit_w))
 
     # -- solving ----------------------------------------------------------------------
     def solve(self, cost: dict[int, float], factor_for: Iterable[str] = (),
-              floors: dict[str, float] | None = None) -> tuple[float, np.ndarray] | None:
+              floors: dict[str, float] | None = None,
+              ceilings: dict[str, float] | None = None) -> tuple[float, np.ndarray] | None:
         """Minimise ``cost``; scanners in ``factor_for`` get in ≥ t·need, those in
-        ``floors`` get in ≥ floor (W). ``None`` when infeasible."""
+        ``floors`` get in ≥ floor (W), those in ``ceilings`` in ≤ ceiling (W).
+        ``None`` when infeasible."""
         ub = list(self.ub)
+        for sid, top in (ceilings or {}).items():
+            ub.append((self._in(sid), top))
         for sid in factor_for:
             need = self.net.node[sid].need_w
             ub.append((self._add(self._in(sid, -1.0), {self.t: need}), 0.0))
@@ -188,6 +219,22 @@ class ReferenceLp:
             return None
         assert res.status == 0, res.message
         return float(res.fun), np.asarray(res.x)
+
+    def max_absorbed(self, behaviour: Behaviour, pinned: dict[str, float]) -> float:
+        """Most power the dumps (ABSORB) or attenuators (RANGE) can absorb with each
+        scanner's input pinned (to 1e-9 relative) at ``pinned``."""
+        cost: dict[int, float] = {}
+        for node in self.net.nodes:
+            if node.behaviour is not behaviour:
+                continue
+            cost = self._add(cost, self._in(node.id, -1.0))
+            if behaviour is Behaviour.RANGE:
+                cost = self._add(cost, {self._out(node.id): 1.0})
+        low = {j: w * (1 - 1e-9) for j, w in pinned.items()}
+        high = {j: w * (1 + 1e-9) + 1e-9 for j, w in pinned.items()}
+        out = self.solve(cost, (), low, high)
+        assert out is not None
+        return -out[0]
 
     def delivered(self, x: np.ndarray, sid: str) -> float:
         """A scanner's input in a solution."""
@@ -650,3 +697,75 @@ def test_nearly_idle_splitter_passes_its_own_check() -> None:
             for name, fraction in e.setting:
                 port = ports[name]
                 assert port.fraction_min - 1e-6 <= fraction <= port.fraction_max + 1e-6, e.id
+
+
+# -- useful ceilings and surplus modes ---------------------------------------------------
+
+
+def test_reference_ceiling_on_coated_line() -> None:
+    # Hand calculation: litho-e1, 30 mJ/cm² = 300 J/m² on the full-field profile:
+    # 300 × 0.026 × 0.8 = 6.24 W at the wafer; ÷ (0.9 × 0.7^10 × 0.65 × 0.88²)
+    # = 487.6216 W at IF. The reference bound and beamplan's plan agree with it.
+    net = build_network(load_layout(os.path.join(ROOT, "layouts", "coated-line.yaml")))
+    assert upper_bound(net.node["litho-e1"]) == pytest.approx(487.6216494, rel=1e-8)
+    plan = plan_of(net, "headroom")
+    assert plan.scanner("litho-e1").delivered_w == pytest.approx(487.6216494, rel=1e-7)
+    check_levels(net, "highs", 1e-6)  # every level against the reference with ceilings
+
+
+def _with_surplus(text: str, mode: str, sources: Iterable[str]) -> str:
+    import re
+
+    for sid in sources:  # flow style "  id: {power: ...}" or block style "  id:"
+        text = re.sub(rf"^(  {re.escape(sid)}: \{{)", rf"\1surplus: {mode}, ", text,
+                      flags=re.M)
+        text = re.sub(rf"^(  {re.escape(sid)}:)[ \t]*$", rf"\1\n    surplus: {mode}", text,
+                      flags=re.M)
+    return text
+
+
+def check_surplus(net: Network, mode: str) -> None:
+    # Expected: independent LP with scipy.optimize.linprog: with every scanner pinned
+    # at what the turned-down plan gives, the most power the absorbers can take.
+    behaviour = Behaviour.ABSORB if mode == "dump" else Behaviour.RANGE
+    plan = plan_of(net, "headroom")
+    pinned = {s.id: s.delivered_w for s in plan.scanners if s.status != "out of service"}
+    base_absorbed = sum(plan.element(n.id).absorbed_w for n in net.elements
+                        if n.behaviour is behaviour)
+    assert plan.surplus_mode == mode
+    expected = ReferenceLp(net).max_absorbed(behaviour, pinned)
+    power = sum(s.available_w for s in net.sources)
+    assert base_absorbed == pytest.approx(expected, rel=1e-6, abs=1e-7 * power)
+    loss = plan.losses
+    assert loss.source_w == pytest.approx(loss.delivered_w + loss.absorbed_w + loss.dumped_w,
+                                          rel=1e-9)
+
+
+@pytest.mark.parametrize(("name", "mode"), [("two-bay", "dump"), ("two-bay", "attenuate"),
+                                            ("coated-line", "attenuate"),
+                                            ("pilot-line", "attenuate")])
+def test_demo_surplus(name: str, mode: str) -> None:
+    path = os.path.join(ROOT, "layouts", f"{name}.yaml")
+    with open(path, encoding="utf-8") as f:
+        text = _with_surplus(f.read(), mode, [n.id for n in load_layout(path).sources])
+    assert f"surplus: {mode}" in text
+    check_surplus(network_of(text, f"{name}.yaml"), mode)
+
+
+@RANDOM
+@given(layout_specs(max_scanners=8))
+def test_random_surplus_dump(spec: LayoutSpec) -> None:
+    net = network_of(spec.yaml())
+    reach: dict[str, set[str]] = {}
+    for node in reversed(net.nodes):  # what each node reaches, from the sinks up
+        below = reach.setdefault(node.id, set())
+        for link in net.links:
+            if link.tail == node.id:
+                below |= {link.head} | reach.get(link.head, set())
+    feeding = [sid for sid in spec.sources
+               if any(net.node[n].behaviour is Behaviour.ABSORB for n in reach[sid])]
+    if not feeding:
+        return
+    for sid in feeding:
+        spec.sources[sid]["surplus"] = "dump"
+    check_surplus(network_of(spec.yaml()), "dump")

@@ -8,7 +8,13 @@ from typing import Any
 
 from beamplan.errors import did_you_mean
 from beamplan.layout.kinds import read_multilayer
-from beamplan.layout.model import DemandSpec, ScannerSpec, SourceSpec, UndulatorSpec
+from beamplan.layout.model import (
+    SURPLUS_MODES,
+    DemandSpec,
+    ScannerSpec,
+    SourceSpec,
+    UndulatorSpec,
+)
 from beamplan.layout.reader import ID_PATTERN, MISSING, Context, MapReader
 from beamplan.layout.yamlpos import Path
 
@@ -86,22 +92,66 @@ def _plain(r: MapReader, key: str) -> float | None:
     return float(value)
 
 
+def _electrical(r: MapReader, power: float | None) -> tuple[float | None, float] | None:
+    """The wall-plug model of a source: (draw at full output, fixed part), checked.
+
+    Either ``electrical`` (the draw at full output) or ``electrical_per_euv_watt``
+    (W electrical per W of EUV), each with an optional ``electrical_fixed``.
+    """
+    full = r.quantity("electrical", "power", minimum=0.0, strict_minimum=True)
+    fixed = r.quantity("electrical_fixed", "power", minimum=0.0)
+    per_watt = _plain(r, "electrical_per_euv_watt")
+    if full is None and per_watt is None:
+        if fixed is not None:
+            r._bad("electrical_fixed", "'electrical_fixed' needs 'electrical' (the draw at "
+                   "full output) or 'electrical_per_euv_watt'",
+                   "e.g. 'electrical: 14 MW' or 'electrical_per_euv_watt: 500'", code="missing-key")
+        return None if r.has("electrical") or r.has("electrical_per_euv_watt") else (None, 0.0)
+    if full is not None and per_watt is not None:
+        r._bad("electrical_per_euv_watt", "give 'electrical' or 'electrical_per_euv_watt', "
+               "not both", "the draw at full output follows from the other")
+        return None
+    if power is None:
+        return None
+    fixed = fixed or 0.0
+    if full is None:
+        assert per_watt is not None
+        full = fixed + per_watt * power
+    key = "electrical" if r.has("electrical") else "electrical_per_euv_watt"
+    if fixed > full:
+        r._bad("electrical_fixed", f"'electrical_fixed' {fixed:g} W is above the draw at full "
+               f"output {full:g} W", "the fixed part is part of the draw at full output",
+               code="out-of-range")
+        return None
+    if full < power:
+        r._bad(key, f"the electrical draw at full output {full:g} W is below the EUV power "
+               f"{power:g} W", "a source cannot give more light than it draws; correct the "
+               "value", code="out-of-range")
+        return None
+    return full, fixed
+
+
 def read_sources(ctx: Context, section: dict[str, Any]) -> list[SourceSpec]:
     """Read the ``sources`` section."""
     out = []
     for sid, settings, path in entries(ctx, section, "sources", "source"):
         r = MapReader(ctx, settings, {k: (*path, k) for k in settings}, f"source '{sid}'", path)
         power = r.quantity("power", "power", required=True, minimum=0.0)
-        electrical = r.quantity("electrical", "power", minimum=0.0)
+        wall = _electrical(r, power)
+        surplus = r.text("surplus", default="turn-down")
+        if surplus not in SURPLUS_MODES:
+            r._bad("surplus", f"'surplus' is {surplus!r}",
+                   f"give one of {', '.join(SURPLUS_MODES)}")
         degree = r.quantity("polarisation", "fraction", default=0.0, minimum=0.0, maximum=1.0)
         angle = r.quantity("polarisation_angle", "angle", default=0.0)
         undulator = _undulator(r)
         note = r.text("note")
         in_service = r.in_use("a source")
         r.finish()
-        if power is not None:
-            out.append(SourceSpec(sid, power, electrical, note, ctx.positions.key(path),
-                                  degree or 0.0, angle or 0.0, undulator, in_service))
+        if power is not None and wall is not None and surplus in SURPLUS_MODES:
+            out.append(SourceSpec(sid, power, wall[0], note, ctx.positions.key(path),
+                                  degree or 0.0, angle or 0.0, undulator, in_service,
+                                  wall[1], surplus))
     return out
 
 
@@ -199,6 +249,7 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
         priority = r.integer("priority", default=1, minimum=1)
         note = r.text("note")
         in_service = r.in_use("a scanner")
+        cap_at_useful = r.flag("cap_at_useful", default=True)
         r.finish()
         if len(ctx.diagnostics) > before and any(d.is_error for d in ctx.diagnostics[before:]):
             continue
@@ -212,5 +263,5 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
                         f"scanner '{sid}': max_power {max_w:g} W is below its need {need:g} W",
                         r.value_loc("max_power"), "it can never be fully served")
         out.append(ScannerSpec(sid, need, max_w, priority, note, ctx.positions.key(path),
-                               demand, in_service))
+                               demand, in_service, cap_at_useful))
     return out, used

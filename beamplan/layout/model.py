@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 from beamplan.errors import Diagnostic, Location
 
 __all__ = [
+    "SURPLUS_MODES",
     "AttenuatorSpec",
     "CoatingSpec",
     "DemandSpec",
@@ -55,6 +56,10 @@ class SourceSpec:
 
     ``polarisation_degree`` is the degree of linear polarisation in [0, 1],
     ``polarisation_angle_rad`` the angle of its E-field to the lab horizontal.
+    ``electrical_w`` is the wall-plug draw at full output, ``electrical_fixed_w``
+    the part of it drawn whatever the output (the rest scales with the EUV
+    given). ``surplus`` says what happens to light no scanner can use:
+    ``turn-down`` (the default), ``dump`` or ``attenuate``.
     """
 
     id: str
@@ -66,6 +71,11 @@ class SourceSpec:
     polarisation_angle_rad: float = 0.0
     undulator: UndulatorSpec | None = None
     in_service: bool = True
+    electrical_fixed_w: float = 0.0
+    surplus: str = "turn-down"
+
+
+SURPLUS_MODES = ("turn-down", "dump", "attenuate")
 
 
 @dataclass(frozen=True)
@@ -278,6 +288,9 @@ class ScannerSpec:
         The most IF power it accepts, or ``None``.
     priority
         Its tier for the ``priority`` goal; 1 is served first.
+    cap_at_useful
+        Whether its useful ceiling (see :func:`beamplan.physics.demand.useful_ceiling_w`)
+        bounds what it gets; only scanners given by dose and wph have one.
     """
 
     id: str
@@ -288,6 +301,7 @@ class ScannerSpec:
     location: Location = _NOWHERE
     demand: DemandSpec | None = None
     in_service: bool = True
+    cap_at_useful: bool = True
 
 
 @dataclass(frozen=True)

@@ -73,6 +73,13 @@ class Node:
         The gain (output over input) range; equal for a fixed gain.
     provenance
         Where the gain came from, in words ("given in the layout", ...).
+    max_w
+        A scanner's upper bound in the LP: the lower of its ``max_power``
+        (``max_given_w``) and its useful ceiling (``ceiling_w``) unless it opts
+        out of the ceiling; ``None`` for no bound.
+    electrical_w, electrical_fixed_w
+        A source's wall-plug draw at full output and the part of it that does
+        not scale with the EUV given.
     """
 
     id: str
@@ -93,6 +100,11 @@ class Node:
     demand: Any = None  # beamplan.network.derive.ScannerDemand for scanners with a model
     in_service: bool = True
     select_location: Location | None = field(default=None, compare=False)
+    electrical_fixed_w: float = 0.0
+    surplus: str = "turn-down"
+    ceiling_w: float | None = None
+    max_given_w: float | None = None
+    cap_at_useful: bool = True
 
     @property
     def is_source(self) -> bool:
@@ -251,6 +263,7 @@ def source_node(spec: SourceSpec, wavelength_m: float = 13.5e-9) -> Node:
     """
     node = Node(id=spec.id, kind="source", behaviour=Behaviour.SOURCE,
                 available_w=spec.power_w, electrical_w=spec.electrical_w,
+                electrical_fixed_w=spec.electrical_fixed_w, surplus=spec.surplus,
                 provenance=source_check(spec, wavelength_m), location=spec.location)
     return node if spec.in_service else out_of_service(node)
 
@@ -258,20 +271,36 @@ def source_node(spec: SourceSpec, wavelength_m: float = 13.5e-9) -> Node:
 def scanner_node(spec: ScannerSpec, wavelength_m: float = 13.5e-9) -> Node:
     """The network node of a scanner; its need comes from its demand model if needed.
 
+    A scanner given by dose and wph has a useful ceiling (the IF power at which
+    its stage, not the light, sets the throughput); it bounds what the scanner
+    gets unless ``cap_at_useful`` is false. A lower ``max_power`` still wins.
+
     Examples
     --------
     >>> scanner_node(ScannerSpec("litho-01", 300.0, 500.0)).max_w
     500.0
+    >>> from beamplan.layout.model import DemandSpec
+    >>> node = scanner_node(ScannerSpec("litho-02", None, demand=DemandSpec(300.0, 150.0)))
+    >>> round(node.ceiling_w, 1), node.max_w == node.ceiling_w
+    (487.6, True)
     """
     demand = None if spec.demand is None else scanner_demand(spec.demand, wavelength_m)
+    ceiling = None
     if spec.need_w is not None:
         need, how = spec.need_w, GIVEN
     else:
         assert demand is not None
+        from beamplan.physics.demand import useful_ceiling_w
+
         need = demand.need_w
+        ceiling = useful_ceiling_w(demand.tool, demand.dose_j_m2)  # type: ignore[arg-type]
         how = (f"from dose {demand.dose_j_m2 / 10:.1f} mJ/cm² ({demand.dose_set_by}) at "
                f"{demand.target_wph:g} wph: scanner throughput model")
+    bound = spec.max_w
+    if ceiling is not None and spec.cap_at_useful:
+        bound = ceiling if bound is None else min(bound, ceiling)
     node = Node(id=spec.id, kind="scanner", behaviour=Behaviour.SINK, ports=(),
-                need_w=need, max_w=spec.max_w, priority=spec.priority,
-                provenance=how, location=spec.location, demand=demand)
+                need_w=need, max_w=bound, priority=spec.priority,
+                provenance=how, location=spec.location, demand=demand,
+                ceiling_w=ceiling, max_given_w=spec.max_w, cap_at_useful=spec.cap_at_useful)
     return node if spec.in_service else out_of_service(node)

@@ -139,6 +139,14 @@ class HighsBackend:
             self.highs.run()
             status = self.highs.getModelStatus()
             self._warm = False
+        if status != status_enum.kOptimal:
+            # Simplex can lose its way when powers span many decades (a micro-watt
+            # need beside a megawatt source): the interior-point solver copes.
+            self.highs.setOptionValue("solver", "ipm")
+            self.highs.clearSolver()
+            self.highs.run()
+            status = self.highs.getModelStatus()
+            self.highs.setOptionValue("solver", "choose")
         if status == status_enum.kOptimal and not self._warm:
             # Presolve pays on a cold solve; re-solves of an edited model start from
             # the last optimal basis, and presolving them again costs a third more.

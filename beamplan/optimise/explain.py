@@ -44,6 +44,9 @@ def _describe(row: Row, network: Network) -> str:
     if row.family == "available":
         return f"available power of source '{node.id}' ({format_power(node.available_w)})"
     if row.family == "max-power":
+        if node.ceiling_w is not None and node.max_w == node.ceiling_w:
+            return (f"useful ceiling of scanner '{node.id}' ({format_power(node.max_w)}; above "
+                    "it the stage, not the light, sets its throughput)")
         return f"max_power of scanner '{node.id}' ({format_power(node.max_w or 0)})"
     if row.family == "demand":
         return f"need of scanner '{node.id}' ({format_power(node.need_w)})"
@@ -137,8 +140,33 @@ def binding_constraints(model: LpModel, outcome: GoalOutcome, flows: Flows
         price, unit = _price(row, dual, outcome.primary, flows)
         out.append(Binding(row.name, row.family, row.node, _describe(row, network), price, unit,
                            _meaning(row, price, unit, outcome.primary, bottleneck, tiers)))
+    out += _drawn_sources(model, outcome, flows, {b.subject for b in out})
     out.sort(key=lambda b: (-abs(b.shadow_price), b.constraint))
     return tuple(out)
+
+
+def _drawn_sources(model: LpModel, outcome: GoalOutcome, flows: Flows, listed: set[str]
+                   ) -> list[Binding]:
+    """Sources that give all they have but carry no price in the primary stage.
+
+    A source drawn in full is a binding constraint even when the primary
+    stage's dual is zero (another limit binds at the same point, or a later
+    stage drew it in full): it is listed with a price of 0 and says so.
+    """
+    out = []
+    for node in model.network.sources:
+        output = flows.incident_w[node.id]
+        if node.id in listed or node.available_w <= 0 or \
+                output < node.available_w * (1.0 - 1e-7):
+            continue
+        row = model.row_info[model.available_row[node.id]]
+        priced = any(abs(float(d[model.available_row[node.id]])) > PRICE_TOL
+                     for d in outcome.freeze_duals.values() if len(d))
+        why = ("it held a later scanner's level when that was frozen" if priced else
+               "another limit binds at the same point, so one W more alone changes nothing")
+        out.append(Binding(row.name, row.family, node.id, _describe(row, model.network), 0.0,
+                           "per W", f"drawn in full: the source gives all it has; {why}"))
+    return out
 
 
 def _ancestors(network: Network, node_id: str) -> set[str]:

@@ -19,10 +19,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from beamplan.errors import InternalError
 from beamplan.network.behaviour import Node
 from beamplan.optimise.backend import INF, Backend, RawSolution
 from beamplan.optimise.lp import LpModel
+from beamplan.optimise.magnitudes import solver_failure
 
 __all__ = ["GOALS", "GoalOutcome", "run_goal"]
 
@@ -63,8 +63,7 @@ class _Driver:
         sol = self.b.solve()
         self.stages += 1
         if sol.status != "optimal" and not allow_infeasible:
-            raise InternalError(f"the LP stage {self.stages} ended {sol.status}; this is a "
-                                "bug in beamplan, please report it with the layout")
+            raise solver_failure(self.stages, sol.status)
         return sol
 
     @property
@@ -87,8 +86,10 @@ class _Driver:
         row = self.m.demand_row[sid]
         self.b.set_coefficient(row, self.m.factor_col, 0.0)
         held = max(level, 0.0) * self.need(sid)
-        # A relative give, and an absolute one for scanners that get milliwatts.
-        self.b.set_rhs(row, max(held * (1.0 - self.b.freeze_slack) - self.b.freeze_abs_w, 0.0))
+        # A relative give, and an absolute one for scanners that get milliwatts, scaled
+        # down with the need so that a micro-watt scanner is not held 1 % low.
+        give = min(self.b.freeze_abs_w, 1e-4 * self.need(sid))
+        self.b.set_rhs(row, max(held * (1.0 - self.b.freeze_slack) - give, 0.0))
 
     def factor_bounds(self, low: float, high: float) -> None:
         self.b.set_bounds(self.m.factor_col, low, high)

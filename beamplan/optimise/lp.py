@@ -30,7 +30,8 @@ class Row:
 
     ``family`` is one of ``balance``, ``range-low``, ``range-high``,
     ``share-sum``, ``share-low``, ``share-high``, ``share-out``, ``heat``,
-    ``source``, ``available``, ``demand``, ``max-power``.
+    ``source``, ``available``, ``demand``, ``max-power`` (max_power or the
+    useful ceiling, whichever is lower).
     """
 
     name: str
@@ -213,6 +214,9 @@ def build_lp(network: Network) -> LpModel:
     >>> len(model.link_col), len(model.demand_row)
     (10, 3)
     """
+    from beamplan.optimise.magnitudes import check_magnitudes
+
+    check_magnitudes(network)
     problem = pulp.LpProblem("beamplan", pulp.LpMinimize)
     model = LpModel(network, problem)
     _link_columns(model)

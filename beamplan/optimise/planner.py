@@ -4,12 +4,13 @@ from __future__ import annotations
 
 from collections import defaultdict
 
-from beamplan.network.behaviour import Behaviour
+from beamplan.network.behaviour import Behaviour, Node
 from beamplan.network.graph import Network
 from beamplan.optimise.backend import Backend, make_backend
 from beamplan.optimise.explain import binding_constraints, shortfall_limits
 from beamplan.optimise.goals import GoalOutcome, run_goal
 from beamplan.optimise.lp import LpModel, build_lp
+from beamplan.optimise.overdelivery import over_delivery_reasons
 from beamplan.optimise.result import (
     ElementResult,
     Flows,
@@ -20,21 +21,26 @@ from beamplan.optimise.result import (
     propagate,
     verify,
 )
+from beamplan.optimise.surplus import ABSORBERS, check_surplus, settle_surplus, surplus_modes
+from beamplan.physics.source import electrical_draw_w
 
 __all__ = ["MET_RTOL", "finish_plan", "plan_network", "solve_model"]
 
 MET_RTOL = 1e-6  # a scanner within this relative distance of its need counts as met
 
 
-def _scanners(model: LpModel, outcome: GoalOutcome, flows: Flows
+def _scanners(model: LpModel, outcome: GoalOutcome, flows: Flows, goal: str
               ) -> tuple[ScannerResult, ...]:
     network = model.network
+    over = over_delivery_reasons(model, outcome, flows, goal)
     out = []
     for node in network.scanners:
         delivered = flows.incident_w[node.id]
+        caps = {"useful_ceiling_w": node.ceiling_w, "max_power_w": node.max_given_w}
         if not node.in_service:
             out.append(ScannerResult(node.id, node.need_w, 0.0, node.max_w, node.priority, 0.0,
-                                     0.0, "out of service", (), node.provenance))
+                                     0.0, "out of service", (), node.provenance,
+                                     **caps))  # type: ignore[arg-type]
             continue
         ratio = delivered / node.need_w
         short = max(node.need_w - delivered, 0.0)
@@ -57,7 +63,8 @@ def _scanners(model: LpModel, outcome: GoalOutcome, flows: Flows
                      "throughput_limit": str(achieved.limit) if achieved else "power"}
         out.append(ScannerResult(node.id, node.need_w, delivered, node.max_w, node.priority,
                                  ratio - 1.0, short, status, limits, node.provenance,
-                                 **extra))  # type: ignore[arg-type]
+                                 over_delivery_reason=over.get(node.id, ""),
+                                 **caps, **extra))  # type: ignore[arg-type]
     return tuple(out)
 
 
@@ -97,22 +104,67 @@ def _losses(network: Network, flows: Flows, source_total: float) -> Losses:
 
 
 def solve_model(model: LpModel, backend: Backend, goal: str) -> Plan:
-    """Run ``goal`` on a built model and return the verified :class:`Plan`."""
-    return finish_plan(model, backend, run_goal(model, backend, goal), goal)
+    """Run ``goal`` on a built model and return the verified :class:`Plan`.
+
+    Sources that ask for ``surplus: dump`` or ``attenuate`` get the surplus
+    stage of :mod:`beamplan.optimise.surplus` after the goal.
+    """
+    check_surplus(model.network)
+    outcome = run_goal(model, backend, goal)
+    settled = settle_surplus(model, backend, outcome)
+    return finish_plan(model, backend, settled, goal,
+                       turned_down=outcome if settled is not outcome else None)
 
 
-def finish_plan(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: str) -> Plan:
-    """Turn a goal's final LP solution into a propagated, explained, verified plan."""
-    network = model.network
+def _flows(model: LpModel, outcome: GoalOutcome) -> Flows:
     cols = outcome.solution.columns
+    network = model.network
     source_w = {sid: float(cols[col]) for sid, col in model.source_col.items()}
     lp_link = [model.link_value(link.index, cols) for link in network.links]
     lp_share = {key: float(cols[col]) for key, col in model.share_col.items()}
-    flows = propagate(network, source_w, lp_link, lp_share)
+    return propagate(network, source_w, lp_link, lp_share)
+
+
+def _source(node: Node, output_w: float, standby: bool) -> SourceResult:
+    electrical = None
+    if node.electrical_w is not None:
+        per_watt = max(node.electrical_w - node.electrical_fixed_w, 0.0) / node.available_w \
+            if node.available_w > 0 else 0.0
+        electrical = electrical_draw_w(output_w, node.electrical_fixed_w, per_watt) \
+            if output_w > 0 else 0.0
+    return SourceResult(node.id, node.available_w, output_w, electrical, standby,
+                        node.electrical_w, node.electrical_fixed_w, node.surplus)
+
+
+def _surplus(network: Network, flows: Flows, before: Flows | None
+             ) -> tuple[str, float, tuple[tuple[str, float], ...]]:
+    modes = surplus_modes(network)
+    mode = "turn-down" if not modes else " and ".join(sorted(modes))
+    if before is None:
+        return mode, 0.0, ()
+    extra = sum(flows.incident_w[n.id] - before.incident_w[n.id] for n in network.sources)
+    wanted = {ABSORBERS[m] for m in modes}
+    where = tuple((n.id, flows.absorbed_w[n.id] - before.absorbed_w[n.id])
+                  for n in network.elements if n.behaviour in wanted
+                  and flows.absorbed_w[n.id] - before.absorbed_w[n.id] > 1e-9 * max(extra, 1.0))
+    return mode, max(extra, 0.0), where
+
+
+def finish_plan(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: str,
+                turned_down: GoalOutcome | None = None) -> Plan:
+    """Turn a goal's final LP solution into a propagated, explained, verified plan.
+
+    ``turned_down`` is the goal's own solution when a surplus stage followed it
+    (to report where the surplus went).
+    """
+    network = model.network
+    flows = _flows(model, outcome)
     standby = network.standby_sources
-    sources = tuple(SourceResult(n.id, n.available_w, flows.incident_w[n.id], n.electrical_w,
-                                 n.id in standby) for n in network.sources)
-    scanners = _scanners(model, outcome, flows)
+    sources = tuple(_source(n, flows.incident_w[n.id], n.id in standby)
+                    for n in network.sources)
+    scanners = _scanners(model, outcome, flows, goal)
+    mode, surplus_w, surplus_to = _surplus(
+        network, flows, None if turned_down is None else _flows(model, turned_down))
     serving = [s for s in scanners if s.status != "out of service"]
     factor = min((s.delivered_w / s.need_w for s in serving), default=0.0)
     status = "met" if all(s.status == "met" for s in serving) else "short"
@@ -123,7 +175,8 @@ def finish_plan(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: st
                 binding=binding_constraints(model, outcome, flows),
                 solver=backend.name, solver_version=backend.version, stages=outcome.stages,
                 warnings=tuple(w.format() for w in network.warnings),
-                wavelength_m=network.wavelength_m)
+                wavelength_m=network.wavelength_m, surplus_mode=mode, surplus_w=surplus_w,
+                surplus_to=surplus_to)
     verify(plan, network)
     return plan
 

@@ -34,13 +34,21 @@ LIMIT_RTOL = 1e-6
 
 @dataclass(frozen=True)
 class SourceResult:
-    """A source's available and drawn power."""
+    """A source's available and drawn power.
+
+    ``electrical_w`` is the wall-plug draw at the planned output (a fixed part
+    plus a part per W of EUV, :func:`beamplan.physics.source.electrical_draw_w`;
+    0 for a source that gives nothing), ``None`` when the layout gives none.
+    """
 
     id: str
     available_w: float
     output_w: float
     electrical_w: float | None = None
     standby: bool = False  # no power can reach a scanner from it (a switch selects another)
+    electrical_full_w: float | None = None  # the draw at full output
+    electrical_fixed_w: float = 0.0
+    surplus: str = "turn-down"
 
 
 @dataclass(frozen=True)
@@ -62,6 +70,9 @@ class ScannerResult:
     target_wph: float | None = None
     achieved_wph: float | None = None
     throughput_limit: str | None = None  # "stage" or "power"
+    useful_ceiling_w: float | None = None  # where the stage, not the light, sets wph
+    max_power_w: float | None = None  # max_power as given (max_w is the bound used)
+    over_delivery_reason: str = ""  # why it gets more than its need, in words
 
 
 @dataclass(frozen=True)
@@ -129,6 +140,9 @@ class Plan:
     stages: int
     warnings: tuple[str, ...] = field(default=())
     wavelength_m: float = 13.5e-9
+    surplus_mode: str = "turn-down"  # what happens to light no scanner can use
+    surplus_w: float = 0.0  # light sent to dumps or attenuators by that choice
+    surplus_to: tuple[tuple[str, float], ...] = ()  # (element id, W) where it went
 
     @property
     def photon_energy_ev(self) -> float:
@@ -145,15 +159,24 @@ class Plan:
         return photon_flux_per_watt(self.wavelength_m)
 
     @property
-    def electrical_per_delivered(self) -> float | None:
-        """Wall-plug power per unit of EUV power delivered at the scanners."""
-        electrical = [s.electrical_w for s in self.sources
-                      if s.electrical_w is not None and s.output_w > 0]
-        if not electrical or self.delivered_w <= 0:
-            return None
-        from beamplan.physics.source import electrical_kw_per_euv_kw
+    def electrical_w(self) -> float | None:
+        """Wall-plug draw of the sources at their planned output (None if none is given)."""
+        known = [s.electrical_w for s in self.sources if s.electrical_w is not None]
+        return sum(known) if known else None
 
-        return float(electrical_kw_per_euv_kw(self.delivered_w, sum(electrical)))
+    @property
+    def electrical_per_delivered(self) -> float | None:
+        """Wall-plug kW per kW of EUV delivered at the scanners, at the planned output."""
+        electrical = self.electrical_w
+        if electrical is None or electrical <= 0 or self.delivered_w <= 0:
+            return None
+        return electrical / self.delivered_w
+
+    @property
+    def unused_w(self) -> float:
+        """Power the sources that can feed scanners leave unused (available − drawn)."""
+        used = sum(s.output_w for s in self.sources if not s.standby)
+        return max(self.source_available_w - used, 0.0)
 
     @property
     def source_used_w(self) -> float:

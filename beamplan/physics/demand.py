@@ -44,6 +44,7 @@ __all__ = [
     "stage_limited_wph",
     "throughput_at_power",
     "time_per_wafer_s",
+    "useful_ceiling_w",
 ]
 
 Limit = Literal["power", "stage"]
@@ -212,6 +213,36 @@ def stage_limit_if_power_w(tool: ScannerTool, dose_j_m2: float) -> float:
     _check_dose(dose_j_m2)
     wafer_power_w = dose_j_m2 * tool.slit_length_m * tool.stage_max_speed_m_s
     return wafer_power_w / _if_to_exposure(tool)
+
+
+def useful_ceiling_w(tool: ScannerTool, dose_j_m2: float) -> float:
+    """The useful ceiling: the IF power above which more light buys no throughput.
+
+    Method (common practice, no source; the throughput model of the module docstring):
+    the scan speed ``v = min(v_stage, (1 − m) T P_IF / (D L))`` rises with IF power only
+    until it reaches the stage's maximum, at ``P_IF = D L v_stage / ((1 − m) T)``; above
+    it the stage, not the light, sets the wafer rate. The planner bounds the scanner by it.
+
+    Parameters
+    ----------
+    tool : ScannerTool
+        The scanner.
+    dose_j_m2 : float
+        Dose at the wafer in J/m², > 0 (the dose used, after any stochastic floor).
+
+    Returns
+    -------
+    float
+        The ceiling in W at IF.
+
+    Examples
+    --------
+    >>> round(useful_ceiling_w(ScannerTool(), 300.0), 1)  # 30 mJ/cm², 0.8 m/s stage
+    487.6
+    >>> throughput_at_power(ScannerTool(), 300.0, 487.7).limit
+    'stage'
+    """
+    return stage_limit_if_power_w(tool, dose_j_m2)
 
 
 def _if_to_exposure(tool: ScannerTool) -> float:

@@ -17,6 +17,7 @@ from collections.abc import Iterable
 __all__ = [
     "beam_power_w",
     "chain_efficiency",
+    "electrical_draw_w",
     "electrical_kw_per_euv_kw",
     "electrical_power_w",
     "overall_efficiency",
@@ -128,6 +129,45 @@ def electrical_power_w(delivered_euv_power_w: float, efficiency: float) -> float
         )
     _require_efficiency("efficiency", efficiency)
     return delivered_euv_power_w / efficiency
+
+
+def electrical_draw_w(euv_output_w: float, fixed_w: float, per_euv_watt: float) -> float:
+    """Wall-plug draw of a source giving ``euv_output_w``: a fixed part plus a part per watt.
+
+    Method: a linear plant model (common practice, no source). Part of the draw
+    does not depend on the light given (cryogenic plant, magnets, standby RF,
+    cooling): ``fixed_w``; the rest (mainly the RF that accelerates the beam)
+    scales with the EUV output: ``per_euv_watt`` W electrical per W of EUV.
+    ``P_el = fixed + per_euv_watt × P_EUV``. For scale: an accelerator-driven
+    source of about 10 kW EUV draws about 7 MW from the wall (common practice,
+    no source).
+
+    Parameters
+    ----------
+    euv_output_w : float
+        EUV power the source gives, in W, >= 0.
+    fixed_w : float
+        Draw at zero output, in W, >= 0.
+    per_euv_watt : float
+        Extra electrical W per W of EUV, >= 0.
+
+    Returns
+    -------
+    float
+        Electrical power drawn, in W.
+
+    Examples
+    --------
+    >>> electrical_draw_w(10e3, 2e6, 500.0) / 1e6  # 2 MW + 500 × 10 kW
+    7.0
+    >>> electrical_draw_w(0.0, 2e6, 500.0) / 1e6  # turned off: the fixed part remains
+    2.0
+    """
+    for name, value in (("euv_output_w", euv_output_w), ("fixed_w", fixed_w),
+                        ("per_euv_watt", per_euv_watt)):
+        if not (value >= 0.0 and math.isfinite(value)):
+            raise ValueError(f"{name} must be non-negative and finite, got {value!r}")
+    return fixed_w + per_euv_watt * euv_output_w
 
 
 def chain_efficiency(stage_efficiencies: Iterable[float]) -> float:

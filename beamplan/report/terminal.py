@@ -64,20 +64,48 @@ def _header(plan: Plan) -> Table:
                              f"{_pct(plan.headroom_factor - 1)})")
     grid.add_row("light", f"{plan.wavelength_m * 1e9:.2f} nm, {plan.photon_energy_ev:.2f} eV "
                           f"per photon, {plan.photon_flux_per_watt:.3g} photons/s per W")
+    grid.add_row("surplus", surplus_words(plan))
     per_kw = plan.electrical_per_delivered
-    if per_kw is not None:
-        grid.add_row("wall plug", f"{per_kw:.0f} kW electrical per kW delivered at IF")
+    if per_kw is not None and plan.electrical_w is not None:
+        grid.add_row("wall plug", f"{format_power(plan.electrical_w)} electrical, "
+                                  f"{per_kw:.0f} kW per kW delivered at IF")
     return grid
+
+
+def surplus_words(plan: Plan) -> str:
+    """What happened to the light no scanner can use, in one line.
+
+    Examples
+    --------
+    >>> import beamplan
+    >>> surplus_words(beamplan.plan("layouts/coated-line.yaml"))
+    'power left unused at the source: 5.76 kW of 8.00 kW available'
+    """
+    unused = (f"power left unused at the source: {format_power(plan.unused_w)} of "
+              f"{format_power(plan.source_available_w)} available")
+    if plan.surplus_mode == "turn-down" or not plan.surplus_to:
+        return unused
+    where = ", ".join(f"{eid} {format_power(w)}" for eid, w in plan.surplus_to)
+    into = "dumps" if plan.surplus_mode == "dump" else "attenuators" \
+        if plan.surplus_mode == "attenuate" else "dumps and attenuators"
+    return (f"{format_power(plan.surplus_w)} more drawn for the {into} ({where}; the rest "
+            f"is absorbed on the way); {unused}")
 
 
 def _scanners(plan: Plan) -> Table:
     table = titled_table("Scanners (IF power)")
     for name, justify in (("scanner", "left"), ("need", "right"), ("delivered", "right"),
-                          ("headroom", "right"), ("max", "right"), ("status", "left")):
+                          ("headroom", "right"), ("ceiling", "right"), ("max", "right"),
+                          ("status", "left")):
         table.add_column(name, justify=justify)  # type: ignore[arg-type]
     for s in plan.scanners:
+        ceiling = "-" if s.useful_ceiling_w is None else format_power(s.useful_ceiling_w)
+        if s.useful_ceiling_w is not None and s.max_w != s.useful_ceiling_w and \
+                (s.max_power_w is None or s.max_power_w > s.useful_ceiling_w):
+            ceiling += " (off)"  # the scanner opts out of its ceiling
         table.add_row(s.id, format_power(s.need_w), format_power(s.delivered_w),
-                      _pct(s.headroom), format_power(s.max_w) if s.max_w is not None else "-",
+                      _pct(s.headroom), ceiling,
+                      format_power(s.max_power_w) if s.max_power_w is not None else "-",
                       Text(s.status if s.status != "short" else
                            f"short {format_power(s.shortfall_w)}",
                            style=_STATUS_STYLE.get(s.status, "")))
@@ -240,6 +268,21 @@ def _binding(plan: Plan) -> Table | Text:
     return table
 
 
+def _over(plan: Plan) -> list[Any]:
+    over = [s for s in plan.scanners if s.over_delivery_reason]
+    if not over:
+        return []
+    out: list[Any] = [Text("Why scanners get more than their need", style="bold")]
+    groups: dict[str, list[str]] = {}
+    for s in over:  # scanners with the same reason share one line
+        groups.setdefault(s.over_delivery_reason, []).append(f"{s.id} {_pct(s.headroom)}")
+    for reason, names in groups.items():
+        text = Text(f"  {', '.join(names)}: ", style="bold")
+        text.append(reason)
+        out.append(text)
+    return out
+
+
 def _shortfalls(plan: Plan) -> list[Any]:
     out: list[Any] = []
     for s in plan.scanners:
@@ -266,6 +309,7 @@ def plan_renderable(plan: Plan, *, elements: bool = True, sizing: Sizing | None 
     """
     parts: list[Any] = [_header(plan), Text(""), _scanners(plan)]
     parts += _shortfalls(plan)
+    parts += _over(plan)
     if elements:
         parts += [Text(""), _elements(plan)]
     for extra in (_throughput(plan), _optics(plan), _settings(plan)):

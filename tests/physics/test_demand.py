@@ -232,3 +232,21 @@ def test_invalid_requests_rejected() -> None:
         required_if_power(HAND_TOOL, 300.0, -5.0)
     with pytest.raises(ValueError, match="if_power_w"):
         throughput_at_power(HAND_TOOL, 300.0, -1.0)
+
+
+def test_useful_ceiling_hand_calculation() -> None:
+    # Hand calculation (throughput model of shared/README.md): at the stage limit
+    # v = 0.8 m/s, P_wafer = D L v = 300 J/m² × 0.026 m × 0.8 m/s = 6.24 W;
+    # P_IF = 6.24 / ((1 − 0.1) × 0.014218674133664) = 6.24 / 0.0127968067202976
+    # = 487.6216 W. Above it the stage sets the throughput.
+    from beamplan.physics.demand import useful_ceiling_w
+
+    ceiling = useful_ceiling_w(HAND_TOOL, 300.0)
+    assert ceiling == pytest.approx(487.6216494, rel=1e-8)
+    # More power than the ceiling buys nothing; less buys less (hand calculation above).
+    at = throughput_at_power(HAND_TOOL, 300.0, ceiling).wafers_per_hour
+    assert throughput_at_power(HAND_TOOL, 300.0, 2 * ceiling).wafers_per_hour == \
+        pytest.approx(at, rel=1e-12)
+    assert throughput_at_power(HAND_TOOL, 300.0, 0.99 * ceiling).wafers_per_hour < at
+    # The ceiling scales with the dose: twice the dose, twice the power.
+    assert useful_ceiling_w(HAND_TOOL, 600.0) == pytest.approx(2 * ceiling, rel=1e-12)

@@ -58,3 +58,15 @@ def test_invalid_inputs() -> None:
         electrical_power_w(1.0, 0.0)
     with pytest.raises(ValueError, match="average_current_a"):
         beam_power_w(1e9, -1.0)
+
+
+def test_electrical_draw_linear_model() -> None:
+    from beamplan.physics.source import electrical_draw_w
+
+    # Hand calculation: 2 MW fixed + 500 W/W × 10 kW = 7 MW (the ~7 MW for ~10 kW
+    # of common practice, no source); at half output 2 MW + 2.5 MW = 4.5 MW.
+    assert electrical_draw_w(10e3, 2e6, 500.0) == pytest.approx(7e6, rel=1e-12)
+    assert electrical_draw_w(5e3, 2e6, 500.0) == pytest.approx(4.5e6, rel=1e-12)
+    assert electrical_draw_w(0.0, 2e6, 500.0) == 2e6
+    with pytest.raises(ValueError):
+        electrical_draw_w(-1.0, 2e6, 500.0)
