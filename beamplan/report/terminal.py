@@ -79,7 +79,7 @@ def surplus_words(plan: Plan) -> str:
     --------
     >>> import beamplan
     >>> surplus_words(beamplan.plan("layouts/coated-line.yaml"))
-    'power left unused at the source: 5.76 kW of 8.00 kW available'
+    'power left unused at the source: 5.71 kW of 8.00 kW available'
     """
     unused = (f"power left unused at the source: {format_power(plan.unused_w)} of "
               f"{format_power(plan.source_available_w)} available")
