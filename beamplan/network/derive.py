@@ -26,7 +26,26 @@ if TYPE_CHECKING:
     from beamplan.physics.multilayer import Interlayers
 
 __all__ = ["ScannerDemand", "describe_multilayer", "drift_transmission", "mirror_gain",
-           "physics_interlayers", "scanner_demand", "source_check", "stack_reflectivity"]
+           "physics_interlayers", "polarisation_words", "scanner_demand", "source_check", "stack_reflectivity"]
+
+
+def polarisation_words(s_polarisation: float) -> str:
+    """The light's polarisation at a mirror in words, for provenance texts.
+
+    ``s_polarisation`` is the degree along s in [-1, 1]; the s-polarised share
+    of the power is (1 + s) / 2.
+
+    Examples
+    --------
+    >>> polarisation_words(-0.95), polarisation_words(0.5), polarisation_words(0.0)
+    (', light 97.5% p-polarised', ', light 75.0% s-polarised', '')
+    """
+    if abs(s_polarisation) < 5e-4:
+        return ""
+    s_share = (1.0 + s_polarisation) / 2.0
+    if s_share >= 0.5:
+        return f", light {100 * s_share:.1f}% s-polarised"
+    return f", light {100 * (1.0 - s_share):.1f}% p-polarised"
 
 
 def mirror_gain(spec: MirrorSpec, wavelength_m: float, s_polarisation: float
@@ -48,7 +67,7 @@ def mirror_gain(spec: MirrorSpec, wavelength_m: float, s_polarisation: float
     """
     if spec.reflectivity is not None:
         return spec.reflectivity, "given in the layout"
-    pol = f", s-polarisation {s_polarisation:+.2f}" if s_polarisation else ""
+    pol = polarisation_words(s_polarisation)
     rough = f", roughness {spec.roughness_m * 1e9:.2f} nm" if spec.roughness_m else ""
     if spec.coating is not None and spec.grazing_rad is not None:
         from beamplan.physics.optics import mirror_reflectivity

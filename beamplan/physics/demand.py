@@ -51,6 +51,7 @@ Limit = Literal["power", "stage"]
 DoseSource = Literal["recipe", "stochastic floor"]
 
 _SECONDS_PER_HOUR = 3600.0
+_AT_CEILING_RTOL = 1e-6  # a power within this of the useful ceiling counts as at it
 _STAGE_SLACK = 1e-9  # relative slack when a target sits exactly on the stage limit
 
 
@@ -305,7 +306,7 @@ def required_if_power(tool: ScannerTool, dose_j_m2: float, wafers_per_hour: floa
     scan_time_s = (budget_s - tool.wafer_overhead_s) / tool.fields_per_wafer - tool.field_overhead_s
     speed_m_s = tool.scan_length_m / scan_time_s
     limit: Limit = "power"
-    if speed_m_s >= tool.stage_max_speed_m_s * (1.0 - _STAGE_SLACK):
+    if speed_m_s >= tool.stage_max_speed_m_s * (1.0 - _AT_CEILING_RTOL):
         speed_m_s = tool.stage_max_speed_m_s
         limit = "stage"
     wafer_power_w = dose_j_m2 * tool.slit_length_m * speed_m_s
@@ -357,8 +358,9 @@ def throughput_at_power(tool: ScannerTool, dose_j_m2: float, if_power_w: float) 
     stage_power_w = stage_limit_if_power_w(tool, dose_j_m2)
     limit: Limit = "power"
     speed_m_s = power_speed_m_s
-    if power_speed_m_s >= tool.stage_max_speed_m_s:
-        speed_m_s = tool.stage_max_speed_m_s
+    if power_speed_m_s >= tool.stage_max_speed_m_s * (1.0 - _AT_CEILING_RTOL):
+        # at the useful ceiling (to round-off) the stage sets the pace
+        speed_m_s = min(power_speed_m_s, tool.stage_max_speed_m_s)
         limit = "stage"
     if speed_m_s == 0.0:
         return ThroughputResult(0.0, 0.0, math.inf, 0.0, stage_power_w, "power")
