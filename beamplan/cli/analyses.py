@@ -64,13 +64,15 @@ def _cases(args: argparse.Namespace) -> int:
     from beamplan.analyses.compare import compare_cases
     from beamplan.cli.commands import _existing_file
     from beamplan.layout.loader import parse_layout
+    from beamplan.layout.limits import LIMITS
     from beamplan.layout.yamlpos import load_yaml, parse_yaml
 
-    base_doc = load_yaml(_existing_file(args.layout))
+    limits = LIMITS[args.limits]
+    base_doc = load_yaml(_existing_file(args.layout), limits)
     base = parse_layout(base_doc)
     cases = {}
     if args.cases:
-        cases.update(parse_cases(load_yaml(_existing_file(args.cases))))
+        cases.update(parse_cases(load_yaml(_existing_file(args.cases), limits)))
     inline = _command_line_case(args)
     if inline is not None:
         cases.update(parse_cases(parse_yaml(inline, "<command line>")))
@@ -137,7 +139,7 @@ def _sweep(args: argparse.Namespace) -> int:
     from beamplan.cli.commands import _load_network
     from beamplan.report.progress import progress_bar
 
-    network = _load_network(args.layout)
+    network = _load_network(args.layout, args.limits)
     try:
         cases = outage_cases(network, kinds=args.kind or (), ids=args.only or (),
                              pairs=args.pairs, max_pairs=args.max_pairs)
@@ -177,6 +179,9 @@ def _common(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto")
     parser.add_argument("-q", "--quiet", action="store_true", help="no terminal report")
     parser.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    from beamplan.cli.commands import add_limits_option
+
+    add_limits_option(parser)
 
 
 def register(sub: Any) -> None:

@@ -12,7 +12,7 @@ import math
 from collections.abc import Callable
 from typing import Any
 
-from beamplan.errors import did_you_mean
+from beamplan.errors import did_you_mean, excerpt
 from beamplan.layout.model import (
     AttenuatorSpec,
     CoatingSpec,
@@ -66,11 +66,11 @@ def read_multilayer(r: MapReader, key: str = "multilayer") -> MultilayerSpec | N
     absorber, _, spacer = pair.partition("/")
     if not absorber.strip() or not spacer.strip():
         r.ctx.error("bad-value", f"{r.subject}: multilayer 'pair' must read absorber/spacer, "
-                    f"got {pair!r}", sub.value_loc("pair"), "e.g. 'pair: Mo/Si'")
+                    f"got {excerpt(pair)}", sub.value_loc("pair"), "e.g. 'pair: Mo/Si'")
         return None
     period = sub.quantity("period", "length", default=6.9e-9, minimum=0.0, strict_minimum=True)
     gamma = sub.quantity("gamma", "fraction", default=0.4, minimum=0.0, maximum=1.0)
-    bilayers = sub.integer("bilayers", default=50, minimum=1)
+    bilayers = sub.integer("bilayers", default=50, minimum=1, maximum=1000)
     capping = sub.text("capping") or None
     capping_m = sub.quantity("capping_thickness", "length", default=2e-9 if capping else 0.0,
                              minimum=0.0)

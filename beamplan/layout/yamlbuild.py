@@ -207,7 +207,7 @@ class _Builder:
         if tag is None or tag == "!":
             if not event.implicit[0]:
                 return value  # quoted: a string
-            tag = _RESOLVER.resolve(yaml.ScalarNode, value, event.implicit)
+            tag = _RESOLVER.resolve(yaml.ScalarNode, value, event.implicit)  # type: ignore[no-untyped-call]
             if tag == _T + "merge" and is_key:
                 return _MERGE
             if tag not in _SCALAR_TAGS and tag != _T + "timestamp":
