@@ -233,6 +233,8 @@ class _Builder:
             return None
 
     def _bad_tag(self, tag: str, loc: Location) -> None:
+        if tag.startswith(_T):
+            tag = "!!" + tag[len(_T):]
         self.problems.append(Diagnostic(
             "error", "bad-tag", f"the tag {excerpt(tag)} is not accepted", loc,
             "remove it; values are plain text, numbers, lists and mappings"))
