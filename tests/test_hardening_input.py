@@ -27,7 +27,7 @@ from beamplan.layout.yamlpos import _events, load_yaml, parse_yaml
 from beamplan.units import UnitError, parse_quantity
 
 sys.path.insert(0, str(pathlib.Path(__file__).resolve().parent / "perf"))
-from campus import campus_yaml  # noqa: E402
+from campus import campus_yaml
 
 ROOT = pathlib.Path(__file__).resolve().parent.parent
 
@@ -177,7 +177,7 @@ def test_a_key_written_twice_is_still_an_error() -> None:
 ])
 def test_tags_are_refused(value: str, where: int) -> None:
     error = _error(TINY.replace("{kind: mirror, reflectivity: 0.9}",
-                                "{kind: mirror, reflectivity: %s}" % value) % "300 W")
+                                "{kind: mirror, reflectivity: " + value + "}") % "300 W")
     assert error.code == "bad-tag" and error.location is not None
     assert error.location.line == where
 
@@ -228,7 +228,7 @@ def test_overflowing_int_value_is_a_unit_error() -> None:
     ("{period: 1e9 m}", "at most 1e+06 m"),
 ])
 def test_counts_and_lengths_are_bounded(multilayer: str, fragment: str) -> None:
-    element = "{kind: mirror, incidence: 5 deg, multilayer: %s}" % multilayer
+    element = "{kind: mirror, incidence: 5 deg, multilayer: " + multilayer + "}"
     error = _error(TINY.replace("{kind: mirror, reflectivity: 0.9}", element) % "300 W")
     assert fragment in error.format()
 
