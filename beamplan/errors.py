@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import difflib
 import enum
-import unicodedata
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 
@@ -44,11 +43,9 @@ def _escape_char(char: str) -> str:
 
 
 def _unsafe(char: str) -> bool:
-    code = ord(char)
-    if code < 0x20 or 0x7F <= code < 0xA0:
-        return True
-    # line and paragraph separators, and invisible format characters (bidi overrides)
-    return code >= 0x2000 and unicodedata.category(char) in ("Zl", "Zp", "Cf", "Cs", "Co")
+    # control and format characters (bidi overrides), line and paragraph separators,
+    # unusual spaces, unassigned code points: whatever Python calls unprintable
+    return not char.isprintable()
 
 
 def printable(text: str, limit: int = MESSAGE_CHARS) -> str:

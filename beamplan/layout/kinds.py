@@ -241,6 +241,9 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
     derate = r.fraction("derate", default=1.0)
     in_service = r.flag("in_service", default=True)
     if not kind:
+        if not r.ctx.failed:
+            r.ctx.error("missing-key", f"{r.subject}: 'kind' is empty", r.value_loc("kind"),
+                        f"write one of: {', '.join(KINDS)}")
         return None  # its other keys cannot be judged without a kind
     reader = KINDS.get(kind)
     if reader is None:

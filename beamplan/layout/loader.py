@@ -224,6 +224,9 @@ def parse_layout(doc: YamlDocument) -> Layout:
     # Ids of entries that failed their own checks still exist for link checks.
     for section in ("sources", "elements", "scanners"):
         for key in doc.data.get(section) or {}:
+            if str(key) not in items and not ctx.failed:  # a reader gave up silently
+                ctx.error("bad-value", f"{section[:-1]} '{key}' cannot be read",
+                          ctx.positions.key((section, str(key))), "check its keys")
             items.setdefault(str(key), None)
     _check_links(ctx, links, items)
     if ctx.failed:
