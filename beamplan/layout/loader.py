@@ -223,7 +223,8 @@ def parse_layout(doc: YamlDocument) -> Layout:
             items[item.id] = item
     # Ids of entries that failed their own checks still exist for link checks.
     for section in ("sources", "elements", "scanners"):
-        for key in doc.data.get(section) or {}:
+        given = doc.data.get(section)
+        for key in given if isinstance(given, dict) else {}:
             if str(key) not in items and not ctx.failed:  # a reader gave up silently
                 ctx.error("bad-value", f"{section[:-1]} '{key}' cannot be read",
                           ctx.positions.key((section, str(key))), "check its keys")
