@@ -304,3 +304,22 @@ def test_command_line_changes_name_the_option_and_occurrence() -> None:
     code, _, err = _cli(["cases", str(ROOT / "layouts" / "pilot-line.yaml"),
                          "--set", "m3.reflectivity=0.9", "--set", "m3=1", "-q"])
     assert code == 1 and err.startswith("--set, argument 2: error: ")
+
+
+@pytest.mark.parametrize(("includes", "fragment"), [
+    (1, "includes nest more than 50 deep"),  # a chain of 200 includes
+    (2, "more than 10,000 changes"),  # each level includes the next twice: 2**20 changes
+])
+def test_include_chains_are_bounded(tmp_path: pathlib.Path, includes: int,
+                                    fragment: str) -> None:
+    levels = 200 if includes == 1 else 20
+    lines = ["format: 1", "cases:"]
+    for i in range(levels):
+        body = ", ".join([f"{{include: c{i + 1}}}"] * includes)
+        lines.append(f"  c{i}: {{changes: [{body}]}}")
+    lines.append(f"  c{levels}: {{changes: [{{fail: m3}}]}}")
+    path = tmp_path / "chain.yaml"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    code, _, err = _cli(["cases", str(ROOT / "layouts" / "pilot-line.yaml"), str(path),
+                         "--only", "c0", "-q"])
+    assert code == 1 and fragment in err and err.startswith(f"{path}:")
