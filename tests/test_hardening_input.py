@@ -323,3 +323,24 @@ def test_include_chains_are_bounded(tmp_path: pathlib.Path, includes: int,
     code, _, err = _cli(["cases", str(ROOT / "layouts" / "pilot-line.yaml"), str(path),
                          "--only", "c0", "-q"])
     assert code == 1 and fragment in err and err.startswith(f"{path}:")
+
+
+@pytest.mark.parametrize(("electrical", "fragment"), [
+    ("0 W", "it must be above 0"), ("5 kW", "below its EUV power"),
+])
+def test_electrical_power_is_validated(electrical: str, fragment: str) -> None:
+    text = TINY.replace("{fel: {power: 10 kW}}",
+                        "{fel: {power: 10 kW, electrical: " + electrical + "}}") % "300 W"
+    error = _error(text)
+    assert fragment in error.message and error.location == Location("t.yaml", 3, 43)  # hand count
+
+
+def test_wall_plug_ratio_needs_every_source_in_use_to_give_its_electrical_power(
+        tmp_path: pathlib.Path) -> None:
+    # source a gives its electrical power, b does not: no ratio (it crashed: "efficiency 2 > 1")
+    path = tmp_path / "mixed.yaml"
+    path.write_text("layout: mixed\nformat: 1\nsources:\n  a: {power: 10 kW, electrical: 10 kW}\n"
+                    "  b: {power: 10 kW}\nscanners:\n  s1: {power: 8 kW}\n  s2: {power: 8 kW}\n"
+                    "beamlines: [a -> s1, b -> s2]\n", encoding="utf-8")
+    code, out, _ = _cli(["plan", str(path), "--json", "-", "-q"])
+    assert code == 0 and '"electrical_per_delivered": null' in out

@@ -94,7 +94,11 @@ def read_sources(ctx: Context, section: dict[str, Any]) -> list[SourceSpec]:
     for sid, settings, path in entries(ctx, section, "sources", "source"):
         r = MapReader(ctx, settings, {k: (*path, k) for k in settings}, f"source '{sid}'", path)
         power = r.quantity("power", "power", required=True, minimum=0.0)
-        electrical = r.quantity("electrical", "power", minimum=0.0)
+        electrical = r.quantity("electrical", "power", minimum=0.0, strict_minimum=True)
+        if electrical is not None and power is not None and electrical < power:
+            r.ctx.error("out-of-range", f"source '{sid}': 'electrical' {electrical:g} W is "
+                        f"below its EUV power {power:g} W", r.value_loc("electrical"),
+                        "the electrical power drawn is far larger than the EUV power made")
         degree = r.quantity("polarisation", "fraction", default=0.0, minimum=0.0, maximum=1.0)
         angle = r.quantity("polarisation_angle", "angle", default=0.0)
         undulator = _undulator(r)

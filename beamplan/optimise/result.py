@@ -147,10 +147,10 @@ class Plan:
     @property
     def electrical_per_delivered(self) -> float | None:
         """Wall-plug power per unit of EUV power delivered at the scanners."""
-        electrical = [s.electrical_w for s in self.sources
-                      if s.electrical_w is not None and s.output_w > 0]
-        if not electrical or self.delivered_w <= 0:
-            return None
+        used = [s for s in self.sources if s.output_w > 0]
+        electrical = [s.electrical_w for s in used if s.electrical_w is not None]
+        if not electrical or len(electrical) < len(used) or self.delivered_w <= 0:
+            return None  # unknown when a source in use gives no electrical power
         from beamplan.physics.source import electrical_kw_per_euv_kw
 
         return float(electrical_kw_per_euv_kw(self.delivered_w, sum(electrical)))
