@@ -299,6 +299,15 @@ def measure_events(events: Any, file: str, limits: Limits) -> None:
         On a limit reached, or a recursive or unknown alias, located.
     yaml.YAMLError
         On a syntax error (the caller locates it).
+
+    Examples
+    --------
+    >>> from beamplan.layout.limits import Limits
+    >>> measure_events(yaml.parse("a: [1, [2]]"), "a.yaml", Limits(max_depth=1))
+    Traceback (most recent call last):
+    ...
+    beamplan.errors.LayoutError: a.yaml:1:4: error: lists and mappings nest more than 1 \
+deep (aliases expanded); a layout nests a few levels; check the brackets and indentation
     """
     sizes: dict[str, tuple[int, int]] = {}  # anchor -> (nodes, height)
     stack: list[list[Any]] = []  # [anchor, nodes before, height]
@@ -360,6 +369,14 @@ def build_events(events: Any, file: str, limits: Limits) -> tuple[Any, Positions
         duplicate key, or a second document, located.
     yaml.YAMLError
         On a syntax error (the caller locates it).
+
+    Examples
+    --------
+    >>> from beamplan.layout.limits import STANDARD
+    >>> data, where = build_events(yaml.parse("b: &b {x: 1}\\nc: {<<: *b, y: 2}"), "a.yaml",
+    ...                            STANDARD)
+    >>> data["c"], str(where.value(("c", "x")))
+    ({'x': 1, 'y': 2}, 'a.yaml:1:11')
     """
     b = _Builder(file, limits)
     for event in events:
