@@ -344,3 +344,15 @@ def test_wall_plug_ratio_needs_every_source_in_use_to_give_its_electrical_power(
                     "beamlines: [a -> s1, b -> s2]\n", encoding="utf-8")
     code, out, _ = _cli(["plan", str(path), "--json", "-", "-q"])
     assert code == 0 and '"electrical_per_delivered": null' in out
+
+
+def test_adding_behind_an_element_with_a_part_that_is_not_a_mapping(
+        tmp_path: pathlib.Path) -> None:
+    # an unused part that is a number is allowed in the layout; using it in a case was a
+    # TypeError ("'int' object is not iterable")
+    text = (ROOT / "layouts" / "pilot-line.yaml").read_text(encoding="utf-8")
+    path = tmp_path / "layout.yaml"
+    path.write_text(text.replace("parts:\n", "parts:\n  odd: 5\n", 1), encoding="utf-8")
+    code, _, err = _cli(["cases", str(path), "--add", "new behind=m1 part=odd power=1W", "-q"])
+    assert code == 1 and err.startswith("--add, argument 1: error: ")
+    assert "part 'odd' is not a splitter" in err

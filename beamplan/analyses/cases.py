@@ -180,6 +180,8 @@ def _insert(layout: Layout, change: Change, sid: str, arg: dict[str, Any],
     assert base_doc is not None
     ctx = Context(base_doc.positions)
     template = parts[part]
+    if not isinstance(template, dict):
+        raise ChangeError(change, f"part '{part}' is not a splitter")
     reader = MapReader(ctx, template, {k: ("parts", part, k) for k in template},
                        f"part '{part}'", ("parts", part))
     spec = read_element(reader, split_id, part)
