@@ -23,7 +23,83 @@ __all__ = [
     "OutputError",
     "UsageError",
     "did_you_mean",
+    "excerpt",
+    "printable",
 ]
+
+EXCERPT_CHARS = 60  # an input value echoed in a message is cut to this length
+MESSAGE_CHARS = 1000  # and no message line is longer than this
+
+
+def _escape_char(char: str) -> str:
+    code = ord(char)
+    if char == "\n":
+        return "\\n"
+    if char == "\t":
+        return "\\t"
+    if char == "\r":
+        return "\\r"
+    return f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}"
+
+
+def _unsafe(char: str) -> bool:
+    # control and format characters (bidi overrides), line and paragraph separators,
+    # unusual spaces, unassigned code points: whatever Python calls unprintable
+    return not char.isprintable()
+
+
+def printable(text: str, limit: int = MESSAGE_CHARS) -> str:
+    """``text`` safe for a terminal: control characters escaped, on one line, bounded.
+
+    Examples
+    --------
+    >>> printable("bad\\x1b[31mred\\nline")
+    'bad\\\\x1b[31mred\\\\nline'
+    >>> len(printable("x" * 5000))
+    1000
+    """
+    if text.isascii() and text.isprintable():
+        out = text
+    else:
+        out = "".join(_escape_char(c) if _unsafe(c) else c for c in text)
+    if len(out) > limit:
+        out = out[:limit - 1] + "…"
+    return out
+
+
+def excerpt(value: object, limit: int = EXCERPT_CHARS, quote: bool = True) -> str:
+    """A short, escaped, quoted excerpt of an input value, for a message.
+
+    Strings are quoted; other values are shown as Python writes them. Past
+    ``limit`` characters the excerpt ends with an ellipsis.
+
+    Examples
+    --------
+    >>> excerpt("11 kW")
+    "'11 kW'"
+    >>> excerpt("a\\nb")
+    "'a\\\\nb'"
+    >>> excerpt("x" * 100)
+    "'xxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxx…'"
+    >>> excerpt({"a": [1, 2]})
+    "{'a': [1, 2]}"
+    """
+    text = value if isinstance(value, str) else _short_repr(value, limit)
+    text = printable(text, limit)
+    return f"'{text}'" if quote and isinstance(value, str) else text
+
+
+def _short_repr(value: object, limit: int) -> str:
+    """``repr`` of a value without building the whole text of a huge one."""
+    if isinstance(value, (list, tuple, dict)) and len(value) > limit:
+        items = list(value.items())[:limit] if isinstance(value, dict) else list(value)[:limit]
+        return repr(dict(items) if isinstance(value, dict) else items)[:limit] + "…"
+    if isinstance(value, int) and not isinstance(value, bool) and value.bit_length() > 200:
+        return f"a number of about {int(value.bit_length() * 0.30103):,} digits"
+    try:
+        return repr(value)
+    except (ValueError, RecursionError):  # a huge int, a deeply nested value
+        return f"a {type(value).__name__}"
 
 
 class ExitCode(enum.IntEnum):
@@ -52,6 +128,8 @@ class Location:
     column: int
 
     def __str__(self) -> str:
+        if self.line <= 0:  # a place without lines, e.g. "--fail, argument 2"
+            return self.file
         return f"{self.file}:{self.line}:{self.column}"
 
     def shifted(self, columns: int) -> Location:
@@ -91,10 +169,14 @@ class Diagnostic:
     hint: str = ""
 
     def format(self) -> str:
-        """The one-line form ``FILE:LINE:COL: severity: message; hint``."""
+        """The one-line form ``FILE:LINE:COL: severity: message; hint``.
+
+        Control characters and line breaks are escaped, so the line is safe
+        to print to a terminal.
+        """
         where = f"{self.location}: " if self.location else ""
         tail = f"; {self.hint}" if self.hint else ""
-        return f"{where}{self.severity}: {self.message}{tail}"
+        return printable(f"{where}{self.severity}: {self.message}{tail}")
 
     @property
     def is_error(self) -> bool:
@@ -110,9 +192,20 @@ class Diagnostic:
 
 
 class BeamplanError(Exception):
-    """Base of the errors that the command line turns into an exit code."""
+    """Base of the errors that the command line turns into an exit code.
+
+    Its text is one line, escaped and bounded (:func:`printable`).
+
+    Examples
+    --------
+    >>> str(UsageError("no such file: 'a\\x1b[2Jb'"))
+    "no such file: 'a\\\\x1b[2Jb'"
+    """
 
     exit_code: ExitCode = ExitCode.INTERNAL
+
+    def __str__(self) -> str:
+        return printable(super().__str__())
 
 
 class LayoutError(BeamplanError):

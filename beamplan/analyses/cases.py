@@ -19,7 +19,7 @@ from dataclasses import dataclass, replace
 from typing import Any
 
 from beamplan.analyses.changes import Change, ChangeError, apply_change, relink
-from beamplan.errors import Diagnostic, LayoutError, Location, did_you_mean
+from beamplan.errors import Diagnostic, LayoutError, Location, did_you_mean, excerpt
 from beamplan.layout.endpoints import read_scanners
 from beamplan.layout.kinds import read_element
 from beamplan.layout.model import DumpSpec, Layout, LinkSpec, SplitterSpec
@@ -30,6 +30,8 @@ __all__ = ["VERBS", "Case", "build_case", "case_diagnostics", "parse_cases"]
 
 VERBS = ("drop", "add", "set", "scale", "fail", "include")
 _NOWHERE = Location("<cases>", 1, 1)
+MAX_INCLUDE_DEPTH = 50  # includes within includes
+MAX_CHANGES = 10_000  # changes of one case, includes expanded
 
 
 @dataclass(frozen=True)
@@ -178,6 +180,8 @@ def _insert(layout: Layout, change: Change, sid: str, arg: dict[str, Any],
     assert base_doc is not None
     ctx = Context(base_doc.positions)
     template = parts[part]
+    if not isinstance(template, dict):
+        raise ChangeError(change, f"part '{part}' is not a splitter")
     reader = MapReader(ctx, template, {k: ("parts", part, k) for k in template},
                        f"part '{part}'", ("parts", part))
     spec = read_element(reader, split_id, part)
@@ -211,25 +215,31 @@ def build_case(base: Layout, cases: dict[str, Case], name: str,
     LayoutError
         With the located diagnostic of the first change that does not apply.
     """
-    def expand(case: Case, trail: tuple[str, ...]) -> list[Change]:
-        out: list[Change] = []
+    def expand(case: Case, trail: tuple[str, ...], out: list[Change]) -> list[Change]:
         for change in case.changes:
             if change.verb != "include":
                 out.append(change)
+                if len(out) > MAX_CHANGES:
+                    raise ChangeError(change, f"with its includes, case '{name}' has more "
+                                      f"than {MAX_CHANGES:,} changes", "include less")
                 continue
             target = str(change.argument)
             if target not in cases:
-                raise ChangeError(change, f"no case '{target}'", did_you_mean(target, cases))
+                raise ChangeError(change, f"no case {excerpt(target)}",
+                                  did_you_mean(target, cases))
             if target in trail:
                 raise ChangeError(change, f"cases include each other: "
                                   f"{' -> '.join((*trail, target))}")
-            out.extend(expand(cases[target], (*trail, target)))
+            if len(trail) >= MAX_INCLUDE_DEPTH:
+                raise ChangeError(change, f"includes nest more than {MAX_INCLUDE_DEPTH} deep",
+                                  "include fewer levels")
+            expand(cases[target], (*trail, target), out)
         return out
 
     case = cases[name]
     layout = base
     try:
-        for change in expand(case, (name,)):
+        for change in expand(case, (name,), []):
             doc = cases[change.case].doc or case.doc
             assert doc is not None
             layout = apply_change(layout, change, add=_adder(doc, base_doc))

@@ -24,7 +24,7 @@ from __future__ import annotations
 from dataclasses import dataclass, replace
 from typing import Any
 
-from beamplan.errors import Diagnostic, Location, did_you_mean
+from beamplan.errors import Diagnostic, Location, did_you_mean, excerpt
 from beamplan.layout.model import (
     AttenuatorSpec,
     DumpSpec,
@@ -37,8 +37,11 @@ from beamplan.layout.model import (
     SplitterSpec,
     SwitchSpec,
 )
+from beamplan.layout.positions import Positions
+from beamplan.layout.yamlpos import YamlDocument
 
-__all__ = ["SETTABLE", "Change", "ChangeError", "apply_change", "switch_inputs"]
+__all__ = ["SETTABLE", "Change", "ChangeError", "apply_change", "command_line_document",
+           "switch_inputs"]
 
 # Settable keys: the layout key -> (spec field, dimension). Scaling a computed
 # reflectivity or transmission scales the element's derate factor instead.
@@ -89,7 +92,7 @@ def _as_list(change: Change) -> list[str]:
     value = change.argument
     items = value if isinstance(value, list) else [value]
     if not items or not all(isinstance(v, str) for v in items):
-        raise ChangeError(change, f"expected an id or a list of ids, got {value!r}")
+        raise ChangeError(change, f"expected an id or a list of ids, got {excerpt(value)}")
     return list(items)
 
 
@@ -126,7 +129,8 @@ def _fail(layout: Layout, change: Change) -> Layout:
 def _target(layout: Layout, change: Change, dotted: str) -> tuple[Any, str, str]:
     item_id, _, key = str(dotted).rpartition(".")
     if not item_id or not key:
-        raise ChangeError(change, f"{dotted!r} must read ID.KEY", "e.g. 'fel-1.power'")
+        raise ChangeError(change, f"{excerpt(str(dotted))} must read ID.KEY",
+                          "e.g. 'fel-1.power'")
     item = layout.by_id.get(item_id)
     if item is None:
         raise _missing(change, layout, item_id, "source, element or scanner")
@@ -171,8 +175,13 @@ def _store(item: Any, field_name: str, value: float) -> Any:
 
 
 def _check_range(change: Change, dotted: str, value: float, dimension: str) -> None:
-    if value < 0 or (dimension == "fraction" and value > 1.0):
-        bound = "between 0 and 1" if dimension == "fraction" else "at least 0"
+    from beamplan.units import DIMENSIONS
+
+    dim = DIMENSIONS[dimension]
+    top = 1.0 if dimension == "fraction" else dim.limit
+    if not 0 <= value <= top:  # NaN fails too
+        bound = ("between 0 and 1" if dimension == "fraction"
+                 else f"between 0 and {top:g} {dim.si_unit}")
         raise ChangeError(change, f"'{dotted}' would become {value:g}; it must be {bound}")
 
 
@@ -296,3 +305,41 @@ def relink(layout: Layout, remove: LinkSpec | None, new: list[LinkSpec],
     links = [lk for lk in layout.links if lk is not remove] + new
     kept = [e for e in layout.elements if e.id not in drop_ids] + elements
     return replace(layout, links=tuple(links), elements=tuple(kept))
+
+
+COMMAND_LINE = "<command line>"
+
+
+def command_line_document(options: list[tuple[str, int, Any]]) -> YamlDocument:
+    """A one-case document of changes given as command-line options.
+
+    Each option is ``(verb, occurrence, argument)``; every problem with it is
+    located at ``--VERB, argument N`` (the N-th use of that option).
+
+    Examples
+    --------
+    >>> from beamplan.analyses.cases import parse_cases
+    >>> doc = command_line_document([("fail", 1, "m1"), ("fail", 2, "m9")])
+    >>> [str(c.location) for c in parse_cases(doc)["command-line"].changes]
+    ['--fail, argument 1', '--fail, argument 2']
+    """
+    nowhere = Location(COMMAND_LINE, 0, 0)
+    positions = Positions(COMMAND_LINE)
+    case: tuple[str | int, ...] = ("cases", "command-line")
+    for path in ((), ("format",), ("cases",), case, (*case, "changes")):
+        positions.keys[path] = nowhere
+        positions.values[path] = nowhere
+    changes: list[dict[str, Any]] = []
+    for index, (verb, occurrence, argument) in enumerate(options):
+        where = Location(f"--{verb}, argument {occurrence}", 0, 0)
+        path = (*case, "changes", index)
+        for sub in (path, (*path, verb)):
+            positions.keys[sub] = where
+            positions.values[sub] = where
+        if isinstance(argument, dict):
+            for key in argument:
+                positions.keys[(*path, verb, key)] = where
+                positions.values[(*path, verb, key)] = where
+        changes.append({verb: argument})
+    data = {"format": 1, "cases": {"command-line": {"changes": changes}}}
+    return YamlDocument(data, positions, "")

@@ -9,7 +9,7 @@ import sys
 from typing import TYPE_CHECKING, Any
 
 from beamplan import __version__
-from beamplan.errors import ExitCode, UsageError
+from beamplan.errors import ExitCode, UsageError, excerpt
 
 if TYPE_CHECKING:
     from beamplan.network.graph import Network
@@ -19,35 +19,28 @@ __all__ = ["register"]
 _PAIR = re.compile(r"(\w+)=(.+?)(?=\s+\w+=|$)")
 
 
-def _quote(value: str) -> str:
-    return "'" + value.replace("'", "''") + "'"
-
-
-def _command_line_case(args: argparse.Namespace) -> str | None:
-    """The changes given as options, as the YAML text of a one-case file."""
-    changes: list[str] = []
-    for item in args.drop or []:
-        changes.append(f"  - drop: {_quote(item)}")
-    for item in args.fail or []:
-        changes.append(f"  - fail: {_quote(item)}")
+def _command_line_case(args: argparse.Namespace) -> list[tuple[str, int, Any]]:
+    """The changes given as options: (verb, occurrence of the option, argument)."""
+    changes: list[tuple[str, int, Any]] = []
+    for verb in ("drop", "fail"):
+        for n, item in enumerate(getattr(args, verb) or [], 1):
+            changes.append((verb, n, item))
     for verb in ("set", "scale"):
-        for item in getattr(args, verb) or []:
+        for n, item in enumerate(getattr(args, verb) or [], 1):
             key, sep, value = item.partition("=")
             if not sep or not key.strip() or not value.strip():
-                raise UsageError(f"--{verb} {item!r}: write ID.KEY=VALUE, e.g. fel-1.power=9kW")
-            changes.append(f"  - {verb}: {{{_quote(key.strip())}: {_quote(value.strip())}}}")
-    for item in args.add or []:
+                raise UsageError(f"--{verb}, argument {n}: {excerpt(item)}: write "
+                                 "ID.KEY=VALUE, e.g. fel-1.power=9kW")
+            changes.append((verb, n, {key.strip(): value.strip()}))
+    for n, item in enumerate(args.add or [], 1):
         sid, _, rest = item.strip().partition(" ")
         pairs = _PAIR.findall(rest)
         if not sid or not pairs:
-            raise UsageError(f"--add {item!r}: write 'ID at=SPLITTER.OUTPUT power=300W' or "
-                             "'ID behind=ELEMENT part=PART power=300W'")
-        body = ", ".join(f"{k}: {_quote(v.strip())}" for k, v in pairs)
-        changes.append(f"  - add: {{scanner: {_quote(sid)}, {body}}}")
-    if not changes:
-        return None
-    return "format: 1\ncases:\n command-line:\n  changes:\n" + "\n".join(
-        " " + c for c in changes) + "\n"
+            raise UsageError(f"--add, argument {n}: {excerpt(item)}: write 'ID "
+                             "at=SPLITTER.OUTPUT power=300W' or 'ID behind=ELEMENT part=PART "
+                             "power=300W'")
+        changes.append(("add", n, {"scanner": sid, **{k: v.strip() for k, v in pairs}}))
+    return changes
 
 
 def _refuse_early(args: argparse.Namespace) -> None:
@@ -61,19 +54,22 @@ def _refuse_early(args: argparse.Namespace) -> None:
 def _cases(args: argparse.Namespace) -> int:
     _refuse_early(args)
     from beamplan.analyses.cases import parse_cases
+    from beamplan.analyses.changes import command_line_document
     from beamplan.analyses.compare import compare_cases
     from beamplan.cli.commands import _existing_file
+    from beamplan.layout.limits import LIMITS
     from beamplan.layout.loader import parse_layout
-    from beamplan.layout.yamlpos import load_yaml, parse_yaml
+    from beamplan.layout.yamlpos import load_yaml
 
-    base_doc = load_yaml(_existing_file(args.layout))
+    limits = LIMITS[args.limits]
+    base_doc = load_yaml(_existing_file(args.layout), limits)
     base = parse_layout(base_doc)
     cases = {}
     if args.cases:
-        cases.update(parse_cases(load_yaml(_existing_file(args.cases))))
+        cases.update(parse_cases(load_yaml(_existing_file(args.cases), limits)))
     inline = _command_line_case(args)
-    if inline is not None:
-        cases.update(parse_cases(parse_yaml(inline, "<command line>")))
+    if inline:
+        cases.update(parse_cases(command_line_document(inline)))
     if not cases:
         raise UsageError("no cases: give a case file or changes such as --drop ID, --fail ID, "
                          "--scale ID.KEY=FACTOR")
@@ -135,7 +131,7 @@ def _sweep(args: argparse.Namespace) -> int:
     from beamplan.cli.commands import _load_network
     from beamplan.report.progress import progress_bar
 
-    network = _load_network(args.layout)
+    network = _load_network(args.layout, args.limits)
     try:
         cases = outage_cases(network, kinds=args.kind or (), ids=args.only or (),
                              pairs=args.pairs, max_pairs=args.max_pairs)
@@ -177,6 +173,9 @@ def _common(parser: argparse.ArgumentParser) -> None:
                         help="LP solver (default: HiGHS in process, CBC if highspy is missing)")
     parser.add_argument("-q", "--quiet", action="store_true", help="no terminal report")
     parser.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    from beamplan.cli.commands import add_limits_option
+
+    add_limits_option(parser)
 
 
 def register(sub: Any) -> None:

@@ -27,11 +27,20 @@ def _existing_file(path: str) -> str:
     return path
 
 
-def _load_network(path: str) -> Any:
+def _load_network(path: str, limits: str = "standard") -> Any:
+    from beamplan.layout.limits import LIMITS
     from beamplan.layout.loader import load_layout
     from beamplan.network.graph import build_network
 
-    return build_network(load_layout(_existing_file(path)))
+    return build_network(load_layout(_existing_file(path), LIMITS[limits]))
+
+
+def add_limits_option(parser: argparse.ArgumentParser) -> None:
+    """The ``--limits`` option of every command that reads a layout."""
+    parser.add_argument("--limits", choices=("standard", "large"), default="standard",
+                        help="input size limits: standard (default; files up to 8 MB, "
+                        "300,000 YAML nodes) or large (128 MB, 5,000,000 nodes) for a very "
+                        "large campus; see docs/layout-format.md")
 
 
 WARNINGS_PER_KIND = 5
@@ -51,7 +60,7 @@ def _print_warnings(network: Any, every: bool = False) -> None:
 
 
 def _check(args: argparse.Namespace) -> int:
-    network = _load_network(args.layout)
+    network = _load_network(args.layout, args.limits)
     if not args.quiet:
         _print_warnings(network, args.all)
         elements = len(network.elements)
@@ -69,7 +78,7 @@ def _plan(args: argparse.Namespace) -> int:
     inputs = [args.layout]
     to_stdout = check([("--json", args.json), ("--html", args.html)], [("--csv", args.csv)],
                       inputs)
-    network = _load_network(args.layout)
+    network = _load_network(args.layout, args.limits)
     if not args.quiet:
         _print_warnings(network)
     plan = plan_network(network, args.goal, args.solver)
@@ -108,6 +117,7 @@ def register(sub: Any) -> None:
     check.add_argument("-q", "--quiet", action="store_true", help="print nothing when valid")
     check.add_argument("--all", action="store_true", help="list every warning")
     check.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    add_limits_option(check)
     check.set_defaults(handler=_check)
 
     plan = sub.add_parser("plan", help="optimise the allocation and report it",
@@ -135,6 +145,7 @@ def register(sub: Any) -> None:
     plan.add_argument("-q", "--quiet", action="store_true",
                       help="no terminal report (files and exit code only)")
     plan.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    add_limits_option(plan)
     plan.set_defaults(handler=_plan)
 
     from beamplan.cli import analyses, calc, draw

@@ -36,7 +36,7 @@ def _draw(args: argparse.Namespace) -> int:
     check([("--output", args.output)], [], [args.layout])
     if args.output == STDOUT and fmt in ("png", "pdf"):
         raise UsageError(f"{fmt.upper()} is binary: give a file name with -o, not '-'")
-    network = _load_network(args.layout)
+    network = _load_network(args.layout, args.limits)
     if not args.quiet:
         _print_warnings(network)
     plan = None
@@ -93,4 +93,7 @@ def register(sub: Any) -> None:
                       help="the picture format, when the suffix of FILE does not say it")
     draw.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
     draw.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    from beamplan.cli.commands import add_limits_option
+
+    add_limits_option(draw)
     draw.set_defaults(handler=_draw)

@@ -12,7 +12,7 @@ import sys
 from collections.abc import Sequence
 
 from beamplan import __version__
-from beamplan.errors import BeamplanError, ExitCode, LayoutError
+from beamplan.errors import BeamplanError, ExitCode, LayoutError, printable
 
 __all__ = ["main"]
 
@@ -22,7 +22,7 @@ class _Parser(argparse.ArgumentParser):
 
     def error(self, message: str) -> None:  # type: ignore[override]
         self.print_usage(sys.stderr)
-        sys.stderr.write(f"beamplan: error: {message}\n")
+        sys.stderr.write(f"beamplan: error: {printable(message)}\n")
         raise SystemExit(int(ExitCode.USAGE))
 
 
@@ -75,7 +75,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     except Exception as exc:  # a bug: say so, briefly, unless --debug
         if debug:
             raise
-        sys.stderr.write(f"beamplan: internal error: {type(exc).__name__}: {exc}\n"
+        sys.stderr.write(f"beamplan: internal error: {type(exc).__name__}: "
+                         f"{printable(str(exc))}\n"
                          "This is a bug; run again with --debug for the traceback and report "
                          "it with your layout.\n")
         return int(ExitCode.INTERNAL)

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from beamplan.errors import did_you_mean
+from beamplan.errors import did_you_mean, excerpt
 from beamplan.layout.kinds import read_multilayer
 from beamplan.layout.model import (
     SURPLUS_MODES,
@@ -45,13 +45,13 @@ def entries(ctx: Context, section: dict[str, Any], name: str, noun: str,
     for item_id, settings in section.items():
         path: Path = (name, item_id)
         if not ID_PATTERN.match(item_id):
-            ctx.error("bad-id", f"{noun} id '{item_id}' is not a valid id",
+            ctx.error("bad-id", f"{noun} id {excerpt(item_id)} is not a valid id",
                       ctx.positions.key(path),
                       "use letters, digits, '-' and '_', starting with a letter or digit")
             continue
         if not isinstance(settings, dict):
             ctx.error("bad-type", f"{noun} '{item_id}': expected a mapping of settings, "
-                      f"got {settings!r}", ctx.positions.value(path),
+                      f"got {excerpt(settings)}", ctx.positions.value(path),
                       f"write e.g. '{example}'")
             continue
         out.append((item_id, settings, path))
@@ -67,7 +67,7 @@ def _undulator(r: MapReader) -> UndulatorSpec | None:
     period = u.quantity("period", "length", required=True, minimum=0.0, strict_minimum=True)
     k = _plain(u, "k")
     field = u.quantity("field", "magnetic field", minimum=0.0)
-    harmonic = u.integer("harmonic", default=1, minimum=1)
+    harmonic = u.integer("harmonic", default=1, minimum=1, maximum=99)
     tunable = bool(u.raw("tunable") is True)
     tolerance = u.quantity("tolerance", "fraction", default=0.01, minimum=0.0)
     u.finish()
@@ -85,8 +85,10 @@ def _plain(r: MapReader, key: str) -> float | None:
     value = r.raw(key)
     if value is MISSING:
         return None
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or value < 0:
-        r.ctx.error("bad-value", f"{r.subject}: '{key}' must be a number ≥ 0, got {value!r}",
+    if (isinstance(value, bool) or not isinstance(value, (int, float))
+            or not 0 <= value <= 1000):  # K is a few units; NaN fails the test too
+        r.ctx.error("bad-value", f"{r.subject}: '{key}' must be a number from 0 to 1000, "
+                    f"got {excerpt(value)}",
                     r.value_loc(key), f"e.g. '{key}: 2.3'")
         return None
     return float(value)
@@ -196,7 +198,7 @@ def _demand(r: MapReader, profile: str | None) -> DemandSpec | None:
     for key, (dimension, name) in TOOL_KEYS.items():
         if dimension == "int":
             if r.has(key):
-                tool.append((name, float(r.integer(key, default=0, minimum=0))))
+                tool.append((name, float(r.integer(key, default=0, minimum=0, maximum=10_000))))
             else:
                 r.asked.add(key)
             continue
@@ -246,7 +248,7 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
         need = r.quantity("power", "power", minimum=0.0, strict_minimum=True)
         demand = _demand(r, profile)
         max_w = r.quantity("max_power", "power", minimum=0.0)
-        priority = r.integer("priority", default=1, minimum=1)
+        priority = r.integer("priority", default=1, minimum=1, maximum=1000)
         note = r.text("note")
         in_service = r.in_use("a scanner")
         cap_at_useful = r.flag("cap_at_useful", default=True)

@@ -13,7 +13,7 @@ import math
 from collections.abc import Callable
 from typing import Any
 
-from beamplan.errors import did_you_mean
+from beamplan.errors import did_you_mean, excerpt
 from beamplan.layout.model import (
     AttenuatorSpec,
     CoatingSpec,
@@ -133,7 +133,7 @@ def read_multilayer(r: MapReader, key: str = "multilayer") -> MultilayerSpec | N
     absorber, _, spacer = (part.strip() for part in pair.partition("/"))
     if not absorber or not spacer:
         r.ctx.error("bad-value", f"{r.subject}: multilayer 'pair' must read absorber/spacer, "
-                    f"got {pair!r}", sub.value_loc("pair"), "e.g. 'pair: Mo/Si'")
+                    f"got {excerpt(pair)}", sub.value_loc("pair"), "e.g. 'pair: Mo/Si'")
         ok = False
     period = sub.quantity("period", "length", default=base.period_m, minimum=0.0,
                           strict_minimum=True)
@@ -319,6 +319,9 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
     derate = r.fraction("derate", default=1.0)
     in_service = r.in_use("an element")
     if not kind:
+        if not r.ctx.failed:
+            r.ctx.error("missing-key", f"{r.subject}: 'kind' is empty", r.value_loc("kind"),
+                        f"write one of: {', '.join(KINDS)}")
         return None  # its other keys cannot be judged without a kind
     reader = KINDS.get(kind)
     if reader is None:

@@ -11,9 +11,10 @@ import hashlib
 import itertools
 from typing import Any
 
-from beamplan.errors import Diagnostic, LayoutError, Location, did_you_mean
+from beamplan.errors import Diagnostic, LayoutError, Location, did_you_mean, excerpt
 from beamplan.layout.endpoints import entries, read_scanners, read_sources
 from beamplan.layout.kinds import read_element
+from beamplan.layout.limits import STANDARD, Limits
 from beamplan.layout.model import (
     ElementSpec,
     Layout,
@@ -54,7 +55,7 @@ def _read_elements(ctx: Context, section: dict[str, Any], parts: dict[str, Any]
             template = parts.get(part)
             if part in parts and not isinstance(template, dict):
                 ctx.error("bad-type", f"part '{part}' must be a mapping of element settings, "
-                          f"got {template!r}", ctx.positions.value(("parts", part)),
+                          f"got {excerpt(template)}", ctx.positions.value(("parts", part)),
                           "e.g. '{kind: mirror, reflectivity: 0.95}'")
                 continue
             if not isinstance(template, dict):
@@ -91,7 +92,7 @@ def _read_beamlines(ctx: Context, top: MapReader, lines: list[str]) -> list[Link
     if value is MISSING:
         return []
     if not isinstance(value, list) or not value:
-        what = "is empty" if isinstance(value, list) else f"must be a list, got {value!r}"
+        what = "is empty" if isinstance(value, list) else f"must be a list, got {excerpt(value)}"
         ctx.error("bad-type", f"'beamlines' {what}: give a list of chains such as "
                   "'fel-1 -> m1 -> litho-01'", top.value_loc("beamlines"),
                   "write each chain on its own line starting with '- '")
@@ -101,7 +102,7 @@ def _read_beamlines(ctx: Context, top: MapReader, lines: list[str]) -> list[Link
         loc = ctx.positions.value(("beamlines", index))
         if not isinstance(chain, str) or "->" not in chain:
             ctx.error("bad-beamline", f"beamline {index + 1} must be a chain of ids joined by "
-                      f"'->', got {chain!r}", loc, "e.g. 'fel-1 -> m1 -> litho-01'")
+                      f"'->', got {excerpt(chain)}", loc, "e.g. 'fel-1 -> m1 -> litho-01'")
             continue
         start = loc.column + _token_column(lines, loc)
         tokens: list[tuple[str, Location]] = []
@@ -115,7 +116,7 @@ def _read_beamlines(ctx: Context, top: MapReader, lines: list[str]) -> list[Link
         for text, tloc in tokens:
             bare = text.split(".")
             if not text or len(bare) > 2 or not all(ID_PATTERN.match(b) for b in bare):
-                ctx.error("bad-beamline", f"beamline {index + 1}: {text!r} is not an id "
+                ctx.error("bad-beamline", f"beamline {index + 1}: {excerpt(text)} is not an id "
                           "or id.output", tloc, "ids hold letters, digits, '-' and '_'")
                 good = False
         if not good:
@@ -222,7 +223,11 @@ def parse_layout(doc: YamlDocument) -> Layout:
             items[item.id] = item
     # Ids of entries that failed their own checks still exist for link checks.
     for section in ("sources", "elements", "scanners"):
-        for key in doc.data.get(section) or {}:
+        given = doc.data.get(section)
+        for key in given if isinstance(given, dict) else {}:
+            if str(key) not in items and not ctx.failed:  # a reader gave up silently
+                ctx.error("bad-value", f"{section[:-1]} '{key}' cannot be read",
+                          ctx.positions.key((section, str(key))), "check its keys")
             items.setdefault(str(key), None)
     _check_links(ctx, links, items)
     if ctx.failed:
@@ -240,8 +245,8 @@ def _top_error(doc: YamlDocument) -> Diagnostic:
                       doc.positions.value(()), "see docs/layout-format.md")
 
 
-def load_layout(path: str) -> Layout:
-    """Load and validate a layout file (schema level).
+def load_layout(path: str, limits: Limits = STANDARD) -> Layout:
+    """Load and validate a layout file (schema level), within ``limits``.
 
     Examples
     --------
@@ -249,4 +254,4 @@ def load_layout(path: str) -> Layout:
     >>> lay.name
     'pilot-line'
     """
-    return parse_layout(load_yaml(path))
+    return parse_layout(load_yaml(path, limits))

@@ -12,7 +12,7 @@ import re
 from collections.abc import Mapping
 from typing import Any
 
-from beamplan.errors import Diagnostic, Location, did_you_mean
+from beamplan.errors import Diagnostic, Location, did_you_mean, excerpt
 from beamplan.layout.yamlpos import Path, Positions
 from beamplan.units import DIMENSIONS, UnitError, parse_quantity
 
@@ -20,6 +20,8 @@ __all__ = ["ID_PATTERN", "MISSING", "Context", "MapReader"]
 
 ID_PATTERN = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_\-]*$")
 MISSING = object()
+MAX_COUNT = 1_000_000  # the largest whole number a key takes unless it says less
+_NUMBER_START = re.compile(r"^[0-9]+(\s*[A-Za-zµ%/].*)?$")
 _MISSING = MISSING
 
 
@@ -125,11 +127,11 @@ class MapReader:
                  index: int | None = None) -> float | None:
         if minimum is not None and (number < minimum or (strict_minimum and number <= minimum)):
             relation = "above" if strict_minimum else "at least"
-            self._bad(key, f"'{key}' is {shown!r}, it must be {relation} {minimum:g}",
+            self._bad(key, f"'{key}' is {excerpt(shown)}, it must be {relation} {minimum:g}",
                       "correct the value", index, code="out-of-range")
             return None
         if maximum is not None and number > maximum:
-            self._bad(key, f"'{key}' is {shown!r}, it must be at most {maximum:g}",
+            self._bad(key, f"'{key}' is {excerpt(shown)}, it must be at most {maximum:g}",
                       "correct the value", index, code="out-of-range")
             return None
         return number
@@ -172,17 +174,20 @@ class MapReader:
             return None
         return low, high
 
-    def integer(self, key: str, *, default: int, minimum: int | None = None) -> int:
-        """A whole number."""
+    def integer(self, key: str, *, default: int, minimum: int | None = None,
+                maximum: int = MAX_COUNT) -> int:
+        """A whole number, at most ``maximum`` (a million unless the key says less)."""
         value = self.raw(key)
         if value is _MISSING:
             return default
         if isinstance(value, bool) or not isinstance(value, int):
-            self._bad(key, f"'{key}' must be a whole number, got {value!r}", f"e.g. '{key}: 1'")
+            self._bad(key, f"'{key}' must be a whole number, got {excerpt(value)}",
+                      f"e.g. '{key}: 1'")
             return default
-        if minimum is not None and value < minimum:
-            self._bad(key, f"'{key}' is {value}, it must be at least {minimum}",
-                      code="out-of-range")
+        low = minimum if minimum is not None else -maximum
+        if not low <= value <= maximum:
+            self._bad(key, f"'{key}' is {excerpt(value)}, it must be from {low} to {maximum}",
+                      "correct the value", code="out-of-range")
             return default
         return value
 
@@ -192,7 +197,7 @@ class MapReader:
         if value is _MISSING:
             return default
         if not isinstance(value, bool):
-            self._bad(key, f"'{key}' must be true or false, got {value!r}")
+            self._bad(key, f"'{key}' must be true or false, got {excerpt(value)}")
             return default
         return value
 
@@ -224,7 +229,7 @@ class MapReader:
         if value is _MISSING:
             return default
         if not isinstance(value, (str, int, float)) or isinstance(value, bool):
-            self._bad(key, f"'{key}' must be text, got {value!r}")
+            self._bad(key, f"'{key}' must be text, got {excerpt(value)}")
             return default
         return str(value)
 
@@ -251,5 +256,8 @@ class MapReader:
         for key in self.data:
             if key not in self.asked:
                 hint = did_you_mean(key, known) or f"the keys here are: {', '.join(known)}"
-                self.ctx.error("unknown-key", f"{self.subject}: unknown key '{key}'",
+                if _NUMBER_START.match(key):  # '{power: 1,5 kW}' reads as key '5 kW'
+                    hint = ("a decimal comma is not accepted: write e.g. '1.5 kW' with a "
+                            "decimal point (in '{...}' a comma starts a new key)")
+                self.ctx.error("unknown-key", f"{self.subject}: unknown key {excerpt(key)}",
                                self.key_loc(key), hint)

@@ -1,53 +1,31 @@
 """Read YAML while keeping the position of every key and value.
 
-PyYAML's composer gives nodes with marks; this module turns them into plain
-Python data and a :class:`Positions` map from paths (tuples of keys and list
-indices) to 1-based file locations, so that later checks can point at the
-exact spot of a mistake.
+PyYAML's parser gives events with marks; :mod:`beamplan.layout.yamlbuild`
+turns them into plain Python data and a :class:`Positions` map from paths
+(tuples of keys and list indices) to 1-based file locations, so that later
+checks can point at the exact spot of a mistake. The file is refused, located,
+when it goes past the limits of :mod:`beamplan.layout.limits`.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from collections.abc import Iterator
+from dataclasses import dataclass
 from typing import Any
 
 import yaml
 
-from beamplan.errors import Diagnostic, LayoutError, Location
+from beamplan.errors import Diagnostic, LayoutError, Location, excerpt
+from beamplan.layout.limits import STANDARD, Limits
+from beamplan.layout.positions import Path, Positions
+from beamplan.layout.yamlbuild import build_events, measure_events
 
-__all__ = ["Path", "Positions", "YamlDocument", "load_yaml", "parse_yaml"]
+__all__ = ["Limits", "Path", "Positions", "YamlDocument", "load_yaml", "parse_yaml"]
 
-Path = tuple[str | int, ...]
-
-try:  # the C loader is much faster; fall back to pure Python where it is absent
+try:  # the C parser is much faster; fall back to pure Python where it is absent
     _Loader: Any = yaml.CSafeLoader
 except AttributeError:  # pragma: no cover - depends on how PyYAML was built
     _Loader = yaml.SafeLoader
-
-
-@dataclass
-class Positions:
-    """Where each path of a document starts: its key and its value."""
-
-    file: str
-    keys: dict[Path, Location] = field(default_factory=dict)
-    values: dict[Path, Location] = field(default_factory=dict)
-
-    def key(self, path: Path) -> Location:
-        """The location of the key at ``path`` (or the nearest enclosing one)."""
-        return self._nearest(self.keys, path) or self.value(path)
-
-    def value(self, path: Path) -> Location:
-        """The location of the value at ``path`` (or the nearest enclosing one)."""
-        return self._nearest(self.values, path) or Location(self.file, 1, 1)
-
-    @staticmethod
-    def _nearest(table: dict[Path, Location], path: Path) -> Location | None:
-        for cut in range(len(path), -1, -1):
-            loc = table.get(path[:cut])
-            if loc is not None:
-                return loc
-        return None
 
 
 @dataclass(frozen=True)
@@ -59,44 +37,44 @@ class YamlDocument:
     text: str
 
 
-def _loc(file: str, mark: Any) -> Location:
-    return Location(file, mark.line + 1, mark.column + 1)
+def _events(text: str) -> Iterator[Any]:
+    loader = _Loader(text)
+    try:
+        while loader.check_event():
+            yield loader.get_event()
+    finally:
+        loader.dispose()
 
 
-class _Builder:
-    def __init__(self, file: str) -> None:
-        self.file = file
-        self.positions = Positions(file)
-        self.problems: list[Diagnostic] = []
-        self.constructor = yaml.constructor.SafeConstructor()
-
-    def build(self, node: yaml.Node, path: Path) -> Any:
-        self.positions.values[path] = _loc(self.file, node.start_mark)
-        if isinstance(node, yaml.MappingNode):
-            self.constructor.flatten_mapping(node)  # resolve '<<' merge keys
-            out: dict[str, Any] = {}
-            for key_node, value_node in node.value:
-                key = self.constructor.construct_object(key_node, deep=True)
-                key_text = str(key)
-                sub = (*path, key_text)
-                if key_text in out:
-                    self.problems.append(Diagnostic(
-                        "error", "duplicate-key",
-                        f"key {key_text!r} appears twice in the same mapping",
-                        _loc(self.file, key_node.start_mark),
-                        f"the first is at line {self.positions.keys[sub].line}; "
-                        "keep one of them"))
-                    continue
-                self.positions.keys[sub] = _loc(self.file, key_node.start_mark)
-                out[key_text] = self.build(value_node, sub)
-            return out
-        if isinstance(node, yaml.SequenceNode):
-            return [self.build(item, (*path, i)) for i, item in enumerate(node.value)]
-        return self.constructor.construct_object(node, deep=True)
+def _line_column(text: str, position: int, file: str) -> Location:
+    before = text[:max(0, position)]
+    line = before.count("\n") + 1
+    return Location(file, line, position - (before.rfind("\n") + 1) + 1)
 
 
-def parse_yaml(text: str, file: str) -> YamlDocument:
-    """Parse YAML text into data and positions.
+def _syntax_error(exc: yaml.YAMLError, text: str, file: str) -> LayoutError:
+    if isinstance(exc, yaml.MarkedYAMLError):
+        mark = exc.problem_mark or exc.context_mark
+        loc = (Location(file, mark.line + 1, mark.column + 1) if mark is not None
+               else Location(file, 1, 1))
+        what = exc.problem or exc.context or "syntax error"
+        if exc.context and exc.problem:
+            what = f"{exc.problem} ({exc.context})"
+        return LayoutError([Diagnostic("error", "yaml-syntax", f"YAML syntax: {what}", loc,
+                                       "check indentation, colons and brackets here")])
+    if isinstance(exc, yaml.reader.ReaderError):
+        char = chr(exc.character) if isinstance(exc.character, int) else str(exc.character)
+        return LayoutError([Diagnostic(
+            "error", "yaml-syntax", f"the character {excerpt(char)} is not allowed in YAML",
+            _line_column(text, exc.position, file), "remove it, or write it as an escape "
+            "inside a double-quoted string")])
+    first = str(exc).splitlines()[0] if str(exc) else "syntax error"
+    return LayoutError([Diagnostic("error", "yaml-syntax", f"YAML: {first}",
+                                   Location(file, 1, 1))])
+
+
+def parse_yaml(text: str, file: str, limits: Limits = STANDARD) -> YamlDocument:
+    """Parse YAML text into data and positions, within ``limits``.
 
     Parameters
     ----------
@@ -104,6 +82,8 @@ def parse_yaml(text: str, file: str) -> YamlDocument:
         The YAML source.
     file
         The name shown in locations.
+    limits
+        Size, node, alias and depth limits (:mod:`beamplan.layout.limits`).
 
     Returns
     -------
@@ -112,7 +92,8 @@ def parse_yaml(text: str, file: str) -> YamlDocument:
     Raises
     ------
     LayoutError
-        On a syntax error or a duplicate key, located.
+        On a syntax error, a duplicate key, a refused tag or a limit reached,
+        located.
 
     Examples
     --------
@@ -121,35 +102,30 @@ def parse_yaml(text: str, file: str) -> YamlDocument:
     0.9
     >>> str(doc.positions.key(("elements", "m1", "reflectivity")))
     'a.yaml:2:8'
+    >>> parse_yaml("a: &a [*a]", "r.yaml")
+    Traceback (most recent call last):
+    ...
+    beamplan.errors.LayoutError: r.yaml:1:8: error: the alias *a refers to a list or mapping \
+that contains it; an alias may only repeat a node that is complete
     """
+    if len(text) > limits.max_bytes:
+        raise _too_big(file, len(text), limits)
     try:
-        node = yaml.compose(text, Loader=_Loader)
-    except yaml.MarkedYAMLError as exc:
-        mark = exc.problem_mark or exc.context_mark
-        loc = _loc(file, mark) if mark is not None else Location(file, 1, 1)
-        what = exc.problem or exc.context or "syntax error"
-        raise LayoutError([Diagnostic("error", "yaml-syntax", f"YAML syntax: {what}", loc,
-                                      "check indentation, colons and brackets here")]) from exc
+        measure_events(_events(text), file, limits)
+        data, positions = build_events(_events(text), file, limits)
     except yaml.YAMLError as exc:
-        raise LayoutError([Diagnostic("error", "yaml-syntax", f"YAML: {exc}",
-                                      Location(file, 1, 1))]) from exc
-    builder = _Builder(file)
-    if node is None:
-        return YamlDocument({}, builder.positions, text)
-    try:
-        data = builder.build(node, ())
-    except yaml.constructor.ConstructorError as exc:
-        mark = exc.problem_mark
-        loc = _loc(file, mark) if mark is not None else Location(file, 1, 1)
-        raise LayoutError([Diagnostic("error", "yaml-syntax", f"YAML: {exc.problem}",
-                                      loc)]) from exc
-    if builder.problems:
-        raise LayoutError(builder.problems)
-    return YamlDocument(data, builder.positions, text)
+        raise _syntax_error(exc, text, file) from None
+    return YamlDocument({} if data is None else data, positions, text)
 
 
-def load_yaml(path: str) -> YamlDocument:
-    """Read and parse a YAML file; an unreadable file is a located error.
+def _too_big(file: str, size: int, limits: Limits) -> LayoutError:
+    return LayoutError([Diagnostic(
+        "error", "too-large", f"the file is larger than {limits.max_bytes:,} bytes (the limit "
+        f"of '--limits {limits.name}')", Location(file, 1, 1), limits.advice)])
+
+
+def load_yaml(path: str, limits: Limits = STANDARD) -> YamlDocument:
+    """Read and parse a YAML file; an unreadable or too large file is a located error.
 
     Examples
     --------
@@ -159,10 +135,13 @@ def load_yaml(path: str) -> YamlDocument:
     beamplan.errors.LayoutError: /no/such/file.yaml:1:1: error: cannot read the file: ...
     """
     try:
-        with open(path, encoding="utf-8") as handle:
-            text = handle.read()
+        with open(path, "rb") as handle:
+            raw = handle.read(limits.max_bytes + 1)
+        if len(raw) > limits.max_bytes:
+            raise _too_big(path, len(raw), limits)
+        text = raw.decode("utf-8").replace("\r\n", "\n").replace("\r", "\n")
     except (OSError, UnicodeDecodeError) as exc:
         reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
         raise LayoutError([Diagnostic("error", "unreadable", f"cannot read the file: {reason}",
                                       Location(path, 1, 1))]) from exc
-    return parse_yaml(text, path)
+    return parse_yaml(text, path, limits)

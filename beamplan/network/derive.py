@@ -26,7 +26,8 @@ if TYPE_CHECKING:
     from beamplan.physics.multilayer import Interlayers
 
 __all__ = ["ScannerDemand", "describe_multilayer", "drift_transmission", "mirror_gain",
-           "physics_interlayers", "polarisation_words", "scanner_demand", "source_check", "stack_reflectivity"]
+           "physics_interlayers", "polarisation_words", "scanner_demand", "source_check",
+           "stack_reflectivity"]
 
 
 def polarisation_words(s_polarisation: float) -> str:

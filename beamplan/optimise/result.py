@@ -170,6 +170,8 @@ class Plan:
         electrical = self.electrical_w
         if electrical is None or electrical <= 0 or self.delivered_w <= 0:
             return None
+        if any(s.electrical_w is None for s in self.sources if s.output_w > 0):
+            return None  # unknown when a source in use does not give its electrical draw
         return electrical / self.delivered_w
 
     @property
