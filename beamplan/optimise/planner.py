@@ -34,6 +34,7 @@ def _scanners(model: LpModel, outcome: GoalOutcome, flows: Flows, goal: str
     network = model.network
     over = over_delivery_reasons(model, outcome, flows, goal)
     out = []
+    cache: dict[int, object] = {}  # each stage's duals read once (see shortfall_limits)
     for node in network.scanners:
         delivered = flows.incident_w[node.id]
         caps = {"useful_ceiling_w": node.ceiling_w, "max_power_w": node.max_given_w}
@@ -49,7 +50,7 @@ def _scanners(model: LpModel, outcome: GoalOutcome, flows: Flows, goal: str
             status, short = "met", 0.0
         else:
             status = "cut off" if delivered <= 1e-9 * node.need_w else "short"
-            limits = shortfall_limits(model, outcome, node.id, delivered)
+            limits = shortfall_limits(model, outcome, node.id, delivered, cache)
         extra = {}
         if node.demand is not None:
             from beamplan.physics.demand import throughput_at_power
