@@ -221,6 +221,7 @@ class _Priced:
             self.reasons.append((int(index), _describe(row, network) + " is reached"))
         self.demand.sort()
         self.described = dict(self.reasons)
+        self.texts = tuple(dict.fromkeys(text for _, text in self.reasons))  # deduplicated
 
 
 def _sharing_text(sharing: list[str]) -> str:
@@ -265,21 +266,23 @@ def shortfall_limits(model: LpModel, outcome: GoalOutcome, scanner_id: str,
     if not isinstance(priced, _Priced):
         priced = cache[id(duals)] = _Priced(model, duals)
         cache[-id(duals)] = duals  # keep the array alive while its id is a key
+    # The stage's own reasons are read (and deduplicated) once; the few of this
+    # scanner's own ("out of service", "max_power", "shared with") never repeat them.
+    stage: tuple[str, ...]
     if outcome.primary == "shortfall":
         # One elastic LP serves every scanner: keep the rows on this scanner's paths.
         rows = sorted(r for u in ups | {scanner_id} for r in priced.by_node.get(u, ()))
-        reasons += [priced.described[r] for r in rows if r in priced.described]
+        stage = tuple(dict.fromkeys(priced.described[r] for r in rows
+                                    if r in priced.described))
         sharing = sorted(model.row_info[r].node for r in rows
                          if model.row_info[r].family == "demand"
                          and model.row_info[r].node != scanner_id)
     else:
-        reasons += [text for _, text in priced.reasons]
+        stage = priced.texts
         sharing = [s for s in priced.demand[:6] if s != scanner_id]  # enough to say "..."
-    if sharing:
-        reasons.append(_sharing_text(sharing))
-    if not reasons:
-        reasons.append("the available power is shared with the other scanners at the same "
-                       "headroom factor")
-    if delivered_w <= 0.0:
-        reasons.insert(0, "it receives no power")
-    return tuple(dict.fromkeys(reasons))
+    tail = [_sharing_text(sharing)] if sharing else []
+    if not reasons and not stage and not tail:
+        tail.append("the available power is shared with the other scanners at the same "
+                    "headroom factor")
+    head = ["it receives no power"] if delivered_w <= 0.0 else []
+    return tuple(dict.fromkeys(head + reasons)) + stage + tuple(tail)

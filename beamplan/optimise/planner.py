@@ -9,7 +9,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.backend import Backend, make_backend
 from beamplan.optimise.explain import binding_constraints, shortfall_limits
 from beamplan.optimise.goals import GoalOutcome, run_goal
-from beamplan.optimise.lp import LpModel, build_lp
+from beamplan.optimise.lp import LpModel, build_lp, gc_paused
 from beamplan.optimise.overdelivery import over_delivery_reasons
 from beamplan.optimise.result import (
     ElementResult,
@@ -158,6 +158,12 @@ def finish_plan(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: st
     ``turned_down`` is the goal's own solution when a surplus stage followed it
     (to report where the surplus went).
     """
+    with gc_paused():
+        return _finish(model, backend, outcome, goal, turned_down)
+
+
+def _finish(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: str,
+            turned_down: GoalOutcome | None) -> Plan:
     network = model.network
     flows = _flows(model, outcome)
     standby = network.standby_sources
