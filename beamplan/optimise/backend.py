@@ -141,8 +141,7 @@ class HighsBackend:
         with quiet_stdout():
             self.highs = highspy.Highs()  # type: ignore[no-untyped-call]
         for option, value in (("output_flag", False), ("primal_feasibility_tolerance", 1e-10),
-                              ("dual_feasibility_tolerance", 1e-10),
-                              ("simplex_dual_edge_weight_strategy", 1)):
+                              ("dual_feasibility_tolerance", 1e-10)):
             self.highs.setOptionValue(option, value)
         order = highs_order(model)
         self.highs.passModel(highs_lp(model, order))
@@ -198,6 +197,10 @@ class HighsBackend:
             if not _within(float(self._act[row]), self._row_low[row], self._row_high[row]):
                 self._feasible = False
 
+    def _cold_options(self) -> None:
+        self.highs.setOptionValue("simplex_strategy", 1)
+        self.highs.setOptionValue("simplex_dual_edge_weight_strategy", -1)
+
     def solve(self) -> RawSolution:
         status_enum = self._highspy.HighsModelStatus
         # After edits that keep the last optimum feasible (a level frozen in
@@ -210,6 +213,7 @@ class HighsBackend:
         status = self.highs.getModelStatus()
         if status != status_enum.kOptimal and self._warm:
             # A warm start from a stale basis may misjudge the LP: solve it afresh.
+            self._cold_options()
             self.highs.setOptionValue("presolve", "on")
             self.highs.clearSolver()
             self.highs.run()
@@ -227,6 +231,9 @@ class HighsBackend:
             # Presolve pays on a cold solve; re-solves of an edited model start from
             # the last optimal basis, and presolving them again costs a third more.
             self.highs.setOptionValue("presolve", "off")
+            # Devex pricing for warm dual re-solves (a sweep's outages); a cold solve
+            # keeps HiGHS's own choice, which is steadier on a large model.
+            self.highs.setOptionValue("simplex_dual_edge_weight_strategy", 1)
             self._warm = True
         if status == status_enum.kOptimal:
             text = "optimal"
