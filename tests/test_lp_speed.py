@@ -91,3 +91,16 @@ def test_cached_reasons_match(name: str) -> None:
         if s.id in outcome.freeze_duals:
             alone = shortfall_limits(model, outcome, s.id, 1.0)
             assert shortfall_limits(model, outcome, s.id, 1.0, cache) == alone
+
+
+@pytest.mark.parametrize("path", DEMOS, ids=os.path.basename)
+def test_build_order_gives_the_same_levels(path: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    """Large models reach HiGHS in build order, small ones in name order: same levels."""
+    from beamplan.optimise import backend
+
+    net = build_network(load_layout(path))
+    by_name = _outcome(net, "headroom", True)
+    monkeypatch.setattr(backend, "LARGE_COLUMNS", 0)
+    in_order = _outcome(net, "headroom", True)
+    for sid, level in by_name.levels.items():
+        assert in_order.levels[sid] == pytest.approx(level, rel=RTOL, abs=1e-12), sid

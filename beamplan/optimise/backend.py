@@ -30,6 +30,7 @@ __all__ = ["Backend", "CbcBackend", "HighsBackend", "RawSolution", "highs_lp", "
            "make_backend"]
 
 INF = float("inf")
+LARGE_COLUMNS = 20_000  # from here on HiGHS gets the columns in build order (highs_order)
 
 
 @dataclass(frozen=True)
@@ -84,12 +85,16 @@ def quiet_stdout() -> Iterator[None]:
 
 
 def highs_order(model: LpModel) -> np.ndarray:
-    """The model's columns in the order HiGHS gets them: by name.
+    """The model's columns in the order HiGHS gets them.
 
-    Sorted by name, as pulp hands columns to a solver, so that a degenerate LP
-    (several optima) ends at the same vertex on both back ends and reports do
-    not depend on the build path.
+    The build order (links in topological order, then shares and scanners)
+    on large models; by name, as pulp hands columns to a solver, on small
+    ones, so that a degenerate LP (several optima) ends at the same vertex as
+    it always has. On a 10,000-scanner campus the name order made the first
+    simplex solve fail (then the interior-point solver took twice as long).
     """
+    if len(model.col_name) >= LARGE_COLUMNS:
+        return np.arange(len(model.col_name), dtype=np.int64)
     return np.array(sorted(range(len(model.col_name)), key=model.col_name.__getitem__),
                     dtype=np.int64)
 

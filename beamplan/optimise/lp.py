@@ -353,10 +353,16 @@ _ROWLESS = (Behaviour.GAIN, Behaviour.ABSORB)  # no rows of their own but a heat
 
 
 def _element_families(m: LpModel) -> None:
+    in_links, link_col, link_coef = m.network.in_links, m.link_col, m.link_coef
     for i, node in enumerate(m.network.elements):
         if node.heat_limit_w is None and node.behaviour in _ROWLESS:
             continue
-        absorbed = _element_rows(m, i, node)
+        into = in_links[node.id]
+        if node.behaviour is Behaviour.GAIN and len(into) == 1:  # the common case, inline
+            index = into[0].index
+            absorbed = {link_col[index]: (1.0 - node.gain_max) * link_coef[index]}
+        else:
+            absorbed = _element_rows(m, i, node)
         if node.heat_limit_w is not None:
             m.heat_row[node.id] = m.add_row(absorbed, Row(f"heat{_tag(i)}", "heat", node.id),
                                             high=node.heat_limit_w)
