@@ -1,10 +1,11 @@
 """Solver back ends behind one small interface: a live HiGHS model, or CBC.
 
-The pulp model is built once. :class:`HighsBackend` hands it to HiGHS in
-process (through highspy) and then changes costs, bounds and coefficients on
-the live model, so re-solves are warm-started. :class:`CbcBackend` applies
-the same edits to the pulp model and solves it with pulp's bundled CBC; it is
-the fallback where highspy is missing.
+The model is built once as sparse arrays. :class:`HighsBackend` passes them
+to HiGHS in process (through highspy) and then changes costs, bounds and
+coefficients on the live model, so re-solves are warm-started.
+:class:`CbcBackend` applies the same edits to the model's pulp view and
+solves it with pulp's bundled CBC; it is the fallback where highspy is
+missing.
 
 Both work in our own column and row numbers (the build order of
 :class:`~beamplan.optimise.lp.LpModel`), and both solve minimisations only,
@@ -19,15 +20,17 @@ import os
 import warnings
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
-from typing import Protocol
+from typing import Any, Protocol
 
 import numpy as np
 
 from beamplan.optimise.lp import LpModel
 
-__all__ = ["Backend", "CbcBackend", "HighsBackend", "RawSolution", "make_backend"]
+__all__ = ["Backend", "CbcBackend", "HighsBackend", "RawSolution", "highs_lp", "highs_order",
+           "make_backend"]
 
 INF = float("inf")
+LARGE_COLUMNS = 20_000  # from here on HiGHS gets the columns in build order (highs_order)
 
 
 @dataclass(frozen=True)
@@ -81,32 +84,89 @@ def quiet_stdout() -> Iterator[None]:
         os.close(fd)
 
 
+def highs_order(model: LpModel) -> np.ndarray:
+    """The model's columns in the order HiGHS gets them.
+
+    The build order (links in topological order, then shares and scanners)
+    on large models; by name, as pulp hands columns to a solver, on small
+    ones, so that a degenerate LP (several optima) ends at the same vertex as
+    it always has. On a 10,000-scanner campus the name order made the first
+    simplex solve fail (then the interior-point solver took twice as long).
+    """
+    if len(model.col_name) >= LARGE_COLUMNS:
+        return np.arange(len(model.col_name), dtype=np.int64)
+    return np.array(sorted(range(len(model.col_name)), key=model.col_name.__getitem__),
+                    dtype=np.int64)
+
+
+def highs_lp(model: LpModel, order: np.ndarray | None = None) -> Any:
+    """The model as a ``highspy.HighsLp``: bounds and one column-wise sparse matrix.
+
+    Column j of HiGHS is the model's column ``order[j]`` (default
+    :func:`highs_order`); rows keep the model's numbers.
+    """
+    import highspy
+
+    order = highs_order(model) if order is None else order
+    inf = highspy.kHighsInf
+    lp = highspy.HighsLp()
+    lp.num_col_ = len(model.col_name)
+    lp.num_row_ = len(model.row_info)
+    lp.col_cost_ = np.zeros(lp.num_col_)
+    lp.col_lower_ = np.clip(np.asarray(model.col_low, dtype=float), -inf, inf)[order]
+    lp.col_upper_ = np.clip(np.asarray(model.col_high, dtype=float), -inf, inf)[order]
+    lp.row_lower_ = np.clip(np.asarray(model.row_low, dtype=float), -inf, inf)
+    lp.row_upper_ = np.clip(np.asarray(model.row_high, dtype=float), -inf, inf)
+    starts, index, values = model.csc(order)
+    lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
+    lp.a_matrix_.start_ = starts
+    lp.a_matrix_.index_ = index
+    lp.a_matrix_.value_ = values
+    return lp
+
+
+def _within(value: float, low: float, high: float) -> bool:
+    """Whether a value lies within bounds, to a feasibility tolerance."""
+    give = 1e-9 * (1.0 + abs(value))
+    return low - give <= value <= high + give
+
+
 class HighsBackend:
-    """A live in-process HiGHS model built from the pulp model."""
+    """A live in-process HiGHS model passed the model's sparse arrays directly."""
 
     name = "HiGHS"
     freeze_slack = 1e-9
     freeze_abs_w = 1e-8
+    primal_resolves = True  # re-solve with primal simplex when the last optimum stays feasible
 
     def __init__(self, model: LpModel) -> None:
         import highspy
-        import pulp
 
         self._highspy = highspy
-        solver = pulp.HiGHS(msg=False)
         with quiet_stdout():
-            solver.createAndConfigureSolver(model.problem)
-        self.highs = model.problem.solverModel
+            self.highs = highspy.Highs()  # type: ignore[no-untyped-call]
         for option, value in (("output_flag", False), ("primal_feasibility_tolerance", 1e-10),
-                              ("dual_feasibility_tolerance", 1e-10),
-                              ("simplex_dual_edge_weight_strategy", 1)):
+                              ("dual_feasibility_tolerance", 1e-10)):
             self.highs.setOptionValue(option, value)
-        solver.buildSolverModel(model.problem)
-        self.col = np.array([v.index for v in model.columns], dtype=np.int64)
-        self.row = np.array([r.index for r in model.rows], dtype=np.int64)
-        self.senses = [r.sense for r in model.rows]
+        order = highs_order(model)
+        self.highs.passModel(highs_lp(model, order))
+        self.ncols = len(model.col_name)
+        self.col = np.empty(self.ncols, dtype=np.int64)  # our column -> HiGHS's
+        self.col[order] = np.arange(self.ncols, dtype=np.int64)
+        self.row = np.arange(len(model.row_info), dtype=np.int64)
+        self.senses = model.sense
         self._warm = False
-        self.ncols = len(model.columns)
+        # What is needed to tell whether the last optimum is still primal feasible
+        # after the edits since (see _still_feasible): then primal simplex re-solves.
+        self._model = model
+        self._col_low = np.asarray(model.col_low, dtype=float)
+        self._col_high = np.asarray(model.col_high, dtype=float)
+        self._row_low = np.asarray(model.row_low, dtype=float)
+        self._row_high = np.asarray(model.row_high, dtype=float)
+        self._coef: dict[tuple[int, int], float] = {}
+        self._x: np.ndarray | None = None  # the last optimum's columns and row activities
+        self._act: np.ndarray | None = None
+        self._feasible = False
         self.version = (f"{self.highs.versionMajor()}.{self.highs.versionMinor()}."
                         f"{self.highs.versionPatch()}")
 
@@ -118,22 +178,47 @@ class HighsBackend:
 
     def set_bounds(self, col: int, low: float, high: float) -> None:
         self.highs.changeColBounds(int(self.col[col]), low, high)
+        self._col_low[col], self._col_high[col] = low, high
+        if self._x is not None and not _within(float(self._x[col]), low, high):
+            self._feasible = False
 
     def set_rhs(self, row: int, value: float) -> None:
         sense = self.senses[row]
         low = value if sense >= 0 else -INF
         high = value if sense <= 0 else INF
         self.highs.changeRowBounds(int(self.row[row]), low, high)
+        self._row_low[row], self._row_high[row] = low, high
+        if self._act is not None and not _within(float(self._act[row]), low, high):
+            self._feasible = False
 
     def set_coefficient(self, row: int, col: int, value: float) -> None:
         self.highs.changeCoeff(int(self.row[row]), int(self.col[col]), value)
+        old = self._coef.get((row, col))
+        if old is None:
+            old = self._model.coefficient(row, col)
+        self._coef[(row, col)] = value
+        if self._act is not None and self._x is not None:
+            self._act[row] += (value - old) * float(self._x[col])
+            if not _within(float(self._act[row]), self._row_low[row], self._row_high[row]):
+                self._feasible = False
+
+    def _cold_options(self) -> None:
+        self.highs.setOptionValue("simplex_strategy", 1)
+        self.highs.setOptionValue("simplex_dual_edge_weight_strategy", -1)
 
     def solve(self) -> RawSolution:
         status_enum = self._highspy.HighsModelStatus
+        # After edits that keep the last optimum feasible (a level frozen in
+        # progressive filling, a new objective), primal simplex starts from a
+        # feasible basis and needs few iterations; dual simplex would start from
+        # every newly violated optimality condition.
+        primal = self.primal_resolves and self._warm and self._feasible
+        self.highs.setOptionValue("simplex_strategy", 4 if primal else 1)
         self.highs.run()
         status = self.highs.getModelStatus()
         if status != status_enum.kOptimal and self._warm:
             # A warm start from a stale basis may misjudge the LP: solve it afresh.
+            self._cold_options()
             self.highs.setOptionValue("presolve", "on")
             self.highs.clearSolver()
             self.highs.run()
@@ -151,6 +236,9 @@ class HighsBackend:
             # Presolve pays on a cold solve; re-solves of an edited model start from
             # the last optimal basis, and presolving them again costs a third more.
             self.highs.setOptionValue("presolve", "off")
+            # Devex pricing for warm dual re-solves (a sweep's outages); a cold solve
+            # keeps HiGHS's own choice, which is steadier on a large model.
+            self.highs.setOptionValue("simplex_dual_edge_weight_strategy", 1)
             self._warm = True
         if status == status_enum.kOptimal:
             text = "optimal"
@@ -161,10 +249,15 @@ class HighsBackend:
         else:
             text = "error"
         if text != "optimal":
+            self._x = self._act = None
+            self._feasible = False
             return RawSolution(text, float("nan"), np.empty(0), np.empty(0))
         solution = self.highs.getSolution()
         cols = np.asarray(solution.col_value)[self.col]
         duals = np.asarray(solution.row_dual)[self.row]
+        self._x = cols
+        self._act = np.array(solution.row_value)[self.row]
+        self._feasible = True
         return RawSolution(text, float(self.highs.getInfo().objective_function_value), cols,
                            duals)
 

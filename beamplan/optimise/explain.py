@@ -20,6 +20,7 @@ by complementary slackness these, and only these, hold its level down.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 
@@ -127,8 +128,10 @@ def binding_constraints(model: LpModel, outcome: GoalOutcome, flows: Flows
     tiers = len({s.priority for s in network.scanners})
     out: list[Binding] = []
     duals = outcome.primary_duals
-    for index, row in enumerate(model.row_info):
-        if row.family not in _FAMILIES or not len(duals):
+    priced: Any = np.flatnonzero(np.abs(duals) > PRICE_TOL) if len(duals) else []
+    for index in priced:
+        row = model.row_info[int(index)]
+        if row.family not in _FAMILIES:
             continue
         if row.family == "demand" and outcome.primary == "factor":
             continue  # the factor's own rows: their price is the factor itself
@@ -180,9 +183,60 @@ def _ancestors(network: Network, node_id: str) -> set[str]:
     return seen
 
 
+def _below_outages(network: Network) -> set[str]:
+    """Every node downstream of a node out of service (one search for the whole plan)."""
+    stack = [n.id for n in network.nodes if not n.in_service]
+    seen = set(stack)
+    if not stack:
+        return seen
+    heads: dict[str, list[str]] = {}
+    for link in network.links:
+        heads.setdefault(link.tail, []).append(link.head)
+    while stack:
+        for head in heads.get(stack.pop(), ()):
+            if head not in seen:
+                seen.add(head)
+                stack.append(head)
+    return seen
+
+
+class _Priced:
+    """The priced rows of one stage's duals, read once for every scanner of that stage."""
+
+    def __init__(self, model: LpModel, duals: np.ndarray) -> None:
+        network = model.network
+        self.by_node: dict[str, list[int]] = {}
+        self.reasons: list[tuple[int, str]] = []  # (row, reason) for limit rows, row order
+        self.demand: list[str] = []  # scanners whose demand row is priced, sorted
+        for index in np.flatnonzero(np.abs(duals) > PRICE_TOL) if len(duals) else []:
+            row = model.row_info[int(index)]
+            self.by_node.setdefault(row.node, []).append(int(index))
+            if row.family == "demand":
+                self.demand.append(row.node)
+                continue
+            if row.family not in _FAMILIES:
+                continue
+            if row.family == "range-high" and network.node[row.node].gain_max >= 1.0:
+                continue
+            self.reasons.append((int(index), _describe(row, network) + " is reached"))
+        self.demand.sort()
+        self.described = dict(self.reasons)
+        self.texts = tuple(dict.fromkeys(text for _, text in self.reasons))  # deduplicated
+
+
+def _sharing_text(sharing: list[str]) -> str:
+    names = ", ".join(sharing[:4]) + (" ..." if len(sharing) > 4 else "")
+    return f"the power it could get is shared with {names}, held at their own levels"
+
+
 def shortfall_limits(model: LpModel, outcome: GoalOutcome, scanner_id: str,
-                     delivered_w: float) -> tuple[str, ...]:
+                     delivered_w: float, cache: dict[int, object] | None = None
+                     ) -> tuple[str, ...]:
     """Plain-word reasons why more power cannot reach a short scanner.
+
+    ``cache`` (a dict kept by the caller across the scanners of one plan) lets
+    scanners frozen in the same stage share one reading of that stage's duals,
+    so explaining every scanner costs time linear in the plan's size.
 
     Examples
     --------
@@ -194,7 +248,12 @@ def shortfall_limits(model: LpModel, outcome: GoalOutcome, scanner_id: str,
     """
     network = model.network
     node = network.node[scanner_id]
-    ups = _ancestors(network, scanner_id)
+    cache = {} if cache is None else cache
+    downstream = cache.get(0)
+    if not isinstance(downstream, set):
+        downstream = cache[0] = _below_outages(network)
+    ups = _ancestors(network, scanner_id) if scanner_id in downstream \
+        or outcome.primary == "shortfall" else set()
     reasons = [f"{network.node[u].kind} '{u}' on its path is out of service"
                for u in sorted(ups) if not network.node[u].in_service]
     if network.max_gains[scanner_id] <= 0.0:
@@ -203,29 +262,27 @@ def shortfall_limits(model: LpModel, outcome: GoalOutcome, scanner_id: str,
     if node.max_w is not None and node.max_w < node.need_w:
         reasons.append(f"its max_power ({format_power(node.max_w)}) is below its need")
     duals = outcome.freeze_duals.get(scanner_id, np.empty(0))
-    # One elastic LP serves every scanner: keep the rows on this scanner's paths.
-    relevant = ups | {scanner_id} if outcome.primary == "shortfall" else None
-    sharing = []
-    for index in np.flatnonzero(np.abs(duals) > PRICE_TOL) if len(duals) else []:
-        row = model.row_info[int(index)]
-        if relevant is not None and row.node not in relevant:
-            continue
-        if row.family == "demand":
-            if row.node != scanner_id:
-                sharing.append(row.node)
-            continue
-        if row.family not in _FAMILIES:
-            continue
-        if row.family == "range-high" and network.node[row.node].gain_max >= 1.0:
-            continue
-        reasons.append(_describe(row, network) + " is reached")
-    if sharing:
-        names = ", ".join(sorted(sharing)[:4]) + (" ..." if len(sharing) > 4 else "")
-        reasons.append(f"the power it could get is shared with {names}, held at their own "
-                       "levels")
-    if not reasons:
-        reasons.append("the available power is shared with the other scanners at the same "
-                       "headroom factor")
-    if delivered_w <= 0.0:
-        reasons.insert(0, "it receives no power")
-    return tuple(dict.fromkeys(reasons))
+    priced = cache.get(id(duals))
+    if not isinstance(priced, _Priced):
+        priced = cache[id(duals)] = _Priced(model, duals)
+        cache[-id(duals)] = duals  # keep the array alive while its id is a key
+    # The stage's own reasons are read (and deduplicated) once; the few of this
+    # scanner's own ("out of service", "max_power", "shared with") never repeat them.
+    stage: tuple[str, ...]
+    if outcome.primary == "shortfall":
+        # One elastic LP serves every scanner: keep the rows on this scanner's paths.
+        rows = sorted(r for u in ups | {scanner_id} for r in priced.by_node.get(u, ()))
+        stage = tuple(dict.fromkeys(priced.described[r] for r in rows
+                                    if r in priced.described))
+        sharing = sorted(model.row_info[r].node for r in rows
+                         if model.row_info[r].family == "demand"
+                         and model.row_info[r].node != scanner_id)
+    else:
+        stage = priced.texts
+        sharing = [s for s in priced.demand[:6] if s != scanner_id]  # enough to say "..."
+    tail = [_sharing_text(sharing)] if sharing else []
+    if not reasons and not stage and not tail:
+        tail.append("the available power is shared with the other scanners at the same "
+                    "headroom factor")
+    head = ["it receives no power"] if delivered_w <= 0.0 else []
+    return tuple(dict.fromkeys(head + reasons)) + stage + tuple(tail)

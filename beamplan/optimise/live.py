@@ -154,7 +154,7 @@ class LiveModel:
         """Zero a matrix entry for an outage, or put the built value back."""
         key = (row, col)
         if key not in self._built:
-            self._built[key] = float(self.model.rows[row].expr.get(self.model.columns[col], 0.0))
+            self._built[key] = self.model.coefficient(row, col)
         self.backend.set_coefficient(row, col, self._built[key] if on else 0.0)
 
     def _cut_off(self, failed: set[str]) -> set[str]:

@@ -82,14 +82,14 @@ def _path_reasons(network: Network, scanner_id: str, flows: Flows) -> list[str]:
 
 
 def _goal_reason(model: LpModel, outcome: GoalOutcome, node: Node, delivered_w: float,
-                 goal: str) -> str:
+                 goal: str, cache: dict[int, object]) -> str:
     from beamplan.optimise.explain import shortfall_limits
 
     level = outcome.levels.get(node.id)
     if level is None or level <= 1.0 + OVER_RTOL or delivered_w > level * node.need_w * \
             (1.0 + OVER_RTOL):
         return ""
-    limits = shortfall_limits(model, outcome, node.id, delivered_w)
+    limits = shortfall_limits(model, outcome, node.id, delivered_w, cache)
     held = [r for r in limits if not r.startswith(("the available power is shared",
                                                      "the power it could get is shared"))]
     why = "; ".join(held) if held else "the light it could get is shared with the others"
@@ -109,12 +109,13 @@ def over_delivery_reasons(model: LpModel, outcome: GoalOutcome, flows: Flows,
     """
     network = model.network
     out: dict[str, str] = {}
+    cache: dict[int, object] = {}  # each stage's duals read once (see shortfall_limits)
     for node in network.scanners:
         delivered = flows.incident_w.get(node.id, 0.0)
         if not node.in_service or delivered <= node.need_w * (1.0 + OVER_RTOL):
             continue
         reasons = []
-        goal_reason = _goal_reason(model, outcome, node, delivered, goal)
+        goal_reason = _goal_reason(model, outcome, node, delivered, goal, cache)
         if goal_reason:
             reasons.append(goal_reason)
         else:

@@ -9,7 +9,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.backend import Backend, make_backend
 from beamplan.optimise.explain import binding_constraints, shortfall_limits
 from beamplan.optimise.goals import GoalOutcome, run_goal
-from beamplan.optimise.lp import LpModel, build_lp
+from beamplan.optimise.lp import LpModel, build_lp, gc_paused
 from beamplan.optimise.overdelivery import over_delivery_reasons
 from beamplan.optimise.result import (
     ElementResult,
@@ -34,6 +34,7 @@ def _scanners(model: LpModel, outcome: GoalOutcome, flows: Flows, goal: str
     network = model.network
     over = over_delivery_reasons(model, outcome, flows, goal)
     out = []
+    cache: dict[int, object] = {}  # each stage's duals read once (see shortfall_limits)
     for node in network.scanners:
         delivered = flows.incident_w[node.id]
         caps = {"useful_ceiling_w": node.ceiling_w, "max_power_w": node.max_given_w}
@@ -49,7 +50,7 @@ def _scanners(model: LpModel, outcome: GoalOutcome, flows: Flows, goal: str
             status, short = "met", 0.0
         else:
             status = "cut off" if delivered <= 1e-9 * node.need_w else "short"
-            limits = shortfall_limits(model, outcome, node.id, delivered)
+            limits = shortfall_limits(model, outcome, node.id, delivered, cache)
         extra = {}
         if node.demand is not None:
             from beamplan.physics.demand import throughput_at_power
@@ -157,6 +158,12 @@ def finish_plan(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: st
     ``turned_down`` is the goal's own solution when a surplus stage followed it
     (to report where the surplus went).
     """
+    with gc_paused():
+        return _finish(model, backend, outcome, goal, turned_down)
+
+
+def _finish(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: str,
+            turned_down: GoalOutcome | None) -> Plan:
     network = model.network
     flows = _flows(model, outcome)
     standby = network.standby_sources

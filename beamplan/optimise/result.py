@@ -270,13 +270,14 @@ def propagate(network: Network, source_w: dict[str, float],
     incident: dict[str, float] = {}
     absorbed: dict[str, float] = {}
     settings: dict[str, float | tuple[tuple[str, float], ...] | None] = {}
+    in_links = network.in_links
     for node in network.nodes:
-        inflow = sum(link[lk.index] for lk in network.in_links[node.id])
-        lp_in = sum(lp_link_w[lk.index] for lk in network.in_links[node.id])
-        if node.is_source:
+        into = in_links[node.id]
+        inflow = link[into[0].index] if len(into) == 1 else sum(link[lk.index] for lk in into)
+        b = node.behaviour
+        if b is Behaviour.SOURCE:
             inflow = max(source_w[node.id], 0.0)
         incident[node.id] = inflow
-        b = node.behaviour
         if b is Behaviour.SOURCE:
             out = network.out_link.get((node.id, None))
             if out is not None:
@@ -285,6 +286,7 @@ def propagate(network: Network, source_w: dict[str, float],
         elif b in (Behaviour.GAIN, Behaviour.COMBINE, Behaviour.RANGE):
             gain = node.gain_max
             if b is Behaviour.RANGE:
+                lp_in = sum(lp_link_w[lk.index] for lk in into)
                 lp_out = lp_link_w[network.out_link[(node.id, None)].index]
                 gain = min(max(lp_out / lp_in, node.gain_min), node.gain_max) \
                     if lp_in > IDLE_W else node.gain_max

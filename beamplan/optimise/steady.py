@@ -107,6 +107,6 @@ def steady_plan(network: Network, base_settings: Mapping[str, Setting], *,
 
         raise InternalError(f"the settings-stability LP ended {solution.status}")
     floors = {sid: keep * level for sid, level in plain.levels.items()}
-    outcome = GoalOutcome(solution, "source", np.zeros(len(model.rows)), solution.objective,
+    outcome = GoalOutcome(solution, "source", np.zeros(len(model.row_info)), solution.objective,
                           floors, plain.stages + 1)
     return finish_plan(model, backend, outcome, "headroom"), plain.primary_value
