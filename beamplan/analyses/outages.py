@@ -16,6 +16,7 @@ ranked by the view after switching.
 from __future__ import annotations
 
 import itertools
+import threading
 from collections.abc import Callable, Iterable, Sequence
 from concurrent.futures import Executor, Future
 from dataclasses import dataclass, field
@@ -27,7 +28,8 @@ from beamplan.optimise.live import CaseSummary, LiveModel
 from beamplan.optimise.planner import MET_RTOL
 from beamplan.optimise.result import Plan
 
-__all__ = ["OutageResult", "OutageView", "SweepReport", "outage_cases", "run_sweep"]
+__all__ = ["OutageResult", "OutageView", "SweepReport", "models_built", "outage_cases",
+           "run_chunk", "run_sweep"]
 
 LOST_RTOL = 1e-6
 
@@ -229,8 +231,21 @@ def _switch_back(live: LiveModel, goal: str, base: CaseSummary, failed: tuple[st
     return best_positions(movable, current, evaluate, _service_key, at)
 
 
-_WORKERS: dict[tuple[str, int, int, str], LiveModel] = {}
-_BASES: dict[tuple[str, int, int, str, str], CaseSummary] = {}
+class _Cache(threading.local):
+    """This worker's live model and base summaries.
+
+    Module-level, so a worker process (of a process pool or a Dask worker)
+    keeps its model across the chunks it runs; per thread, so a Dask worker
+    with several threads never shares one model between two chunks at once.
+    """
+
+    def __init__(self) -> None:
+        self.models: dict[tuple[str, int, int, str], LiveModel] = {}
+        self.bases: dict[tuple[str, int, int, str, str], CaseSummary] = {}
+        self.built = 0  # live models built by this thread (tests check the re-use)
+
+
+_CACHE = _Cache()
 
 
 def _key(network: Network, solver: str) -> tuple[str, int, int, str]:
@@ -240,11 +255,23 @@ def _key(network: Network, solver: str) -> tuple[str, int, int, str]:
 
 def _live(network: Network, solver: str) -> LiveModel:
     key = _key(network, solver)
-    if key not in _WORKERS:
-        _WORKERS.clear()
-        _BASES.clear()
-        _WORKERS[key] = LiveModel(network, solver)
-    return _WORKERS[key]
+    if key not in _CACHE.models:
+        _CACHE.models.clear()
+        _CACHE.bases.clear()
+        _CACHE.models[key] = LiveModel(network, solver)
+        _CACHE.built += 1
+    return _CACHE.models[key]
+
+
+def models_built() -> int:
+    """How many live models this worker thread has built (one per network swept).
+
+    Examples
+    --------
+    >>> models_built() >= 0
+    True
+    """
+    return _CACHE.built
 
 
 def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[str, ...]]
@@ -256,9 +283,9 @@ def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[st
     """
     live = _live(network, solver)
     base_key = (*_key(network, solver), goal)
-    if base_key not in _BASES:
-        _BASES[base_key] = live.summary(goal)
-    base = _BASES[base_key]
+    if base_key not in _CACHE.bases:
+        _CACHE.bases[base_key] = live.summary(goal)
+    base = _CACHE.bases[base_key]
     network = live.network
     out = []
     for failed in cases:
