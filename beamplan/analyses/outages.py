@@ -19,8 +19,9 @@ import itertools
 import threading
 from collections.abc import Callable, Iterable, Sequence
 from concurrent.futures import Executor, Future
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
+from beamplan.analyses.chains import chains, group_cases, solve_sharing
 from beamplan.analyses.switching import SwitchMove, best_positions, search_kind
 from beamplan.network.dominators import single_points_of_failure
 from beamplan.network.graph import Network
@@ -66,6 +67,7 @@ class OutageResult:
     at_failure: OutageView
     moves: tuple[SwitchMove, ...] = ()
     tried: int = 0
+    same_as: tuple[str, ...] = ()  # the case whose solve this one shares (same chain)
 
     @property
     def label(self) -> str:
@@ -138,6 +140,11 @@ class SweepReport:
     def finished(self) -> int:
         """How many cases were planned."""
         return len(self.results)
+
+    @property
+    def distinct(self) -> int:
+        """How many cases were solved; the others share the solve of a case of their chain."""
+        return sum(1 for r in self.results if not r.same_as)
 
 
 def outage_cases(network: Network, *, kinds: Sequence[str] = (), ids: Sequence[str] = (),
@@ -242,6 +249,7 @@ class _Cache(threading.local):
     def __init__(self) -> None:
         self.models: dict[tuple[str, int, int, str], LiveModel] = {}
         self.bases: dict[tuple[str, int, int, str, str], CaseSummary] = {}
+        self.chains: dict[tuple[str, int, int, str], dict[str, tuple[int, int]]] = {}
         self.built = 0  # live models built by this thread (tests check the re-use)
 
 
@@ -258,6 +266,7 @@ def _live(network: Network, solver: str) -> LiveModel:
     if key not in _CACHE.models:
         _CACHE.models.clear()
         _CACHE.bases.clear()
+        _CACHE.chains.clear()
         _CACHE.models[key] = LiveModel(network, solver)
         _CACHE.built += 1
     return _CACHE.models[key]
@@ -274,27 +283,39 @@ def models_built() -> int:
     return _CACHE.built
 
 
+def _plan_case(live: LiveModel, goal: str, base: CaseSummary, failed: tuple[str, ...]
+               ) -> OutageResult:
+    network = live.network
+    with live.outage(failed):
+        at = _impact(base, live.summary(goal), network)
+        after, moves, tried = _switch_back(live, goal, base, failed, at)
+    kinds = tuple(network.node[f].kind for f in failed)
+    return OutageResult(failed, kinds, after, at, moves, tried)
+
+
 def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[str, ...]]
               ) -> list[OutageResult]:
     """Plan a chunk of outage cases on this process's live model (a worker's task).
 
     ``goal`` may also be ``"screen"``: the sweep's fast form of ``headroom``
-    (see :func:`beamplan.optimise.goals.run_goal`).
+    (see :func:`beamplan.optimise.goals.run_goal`). Single outages of one
+    fixed-gain chain that follow each other in ``cases`` share one solve where
+    that is exact (:mod:`beamplan.analyses.chains`); the shared results name
+    the case solved in ``same_as``.
     """
     live = _live(network, solver)
     base_key = (*_key(network, solver), goal)
     if base_key not in _CACHE.bases:
         _CACHE.bases[base_key] = live.summary(goal)
     base = _CACHE.bases[base_key]
-    network = live.network
-    out = []
-    for failed in cases:
-        with live.outage(failed):
-            at = _impact(base, live.summary(goal), network)
-            after, moves, tried = _switch_back(live, goal, base, failed, at)
-        kinds = tuple(network.node[f].kind for f in failed)
-        out.append(OutageResult(failed, kinds, after, at, moves, tried))
-    return out
+    chain = _CACHE.chains.setdefault(base_key[:4], chains(live.network))
+
+    def share(first: OutageResult, failed: tuple[str, ...]) -> OutageResult:
+        kinds = tuple(live.network.node[f].kind for f in failed)
+        return replace(first, failed=failed, kinds=kinds, same_as=first.failed)
+
+    return solve_sharing(live, chain, cases, lambda failed: _plan_case(live, goal, base, failed),
+                         share)
 
 
 def _rank(result: OutageResult) -> tuple[int, int, float, float, str]:
@@ -358,7 +379,12 @@ def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str =
     if goal == "headroom" and not exact:
         goal = "screen"
     size = chunk_size or max(8, min(200, len(cases) // 16 or 1))
-    chunks = [list(cases[i:i + size]) for i in range(0, len(cases), size)]
+    chunks: list[list[tuple[str, ...]]] = [[]]
+    for group in group_cases(network, cases):  # a chain's outages stay in one chunk
+        if len(chunks[-1]) >= size:
+            chunks.append([])
+        chunks[-1].extend(group)
+    chunks = [chunk for chunk in chunks if chunk]
     results: list[OutageResult] = []
     interrupted = False
     try:

@@ -120,6 +120,7 @@ def main() -> None:
           f"{len(cases)} single-outage cases")
 
     # 1. The whole sweep, as a user runs it.
+    load_before = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
     start = time.perf_counter()
     if args.jobs > 1:
         import multiprocessing
@@ -132,8 +133,13 @@ def main() -> None:
     else:
         report = run_sweep(network, cases)
     wall = time.perf_counter() - start
+    load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
     print(f"full sweep, {args.jobs} worker(s): {wall:.2f} s, "
-          f"{report.finished / wall:.0f} cases/s, disagreements: {len(report.disagreements)}")
+          f"{report.finished / wall:.0f} cases/s, disagreements: {len(report.disagreements)}, "
+          f"load average before {load_before:.2f}, after {load:.2f}")
+    print(f"distinct cases solved: {report.distinct} of {report.finished} "
+          f"({report.finished / max(report.distinct, 1):.2f}x fewer: a fixed-gain chain's "
+          "outages share one solve)")
 
     # 2. Side by side on a sample, one process: beamplan per case vs the replay.
     sample = cases[: args.sample]
