@@ -2,11 +2,13 @@
 
 The LP contracts a chain of fixed-gain (GAIN) elements into one column: the
 power entering the chain, ``x``; each element's output is its gain product
-times ``x`` (:func:`beamplan.optimise.lp.build_lp`). Failing element k of a
-chain zeroes ``x`` in every row after k and lifts k's heat limit
-(:meth:`beamplan.optimise.live.LiveModel.outage`), so the LPs of failing
-element j and element k > j of one chain differ in one way only: with k
-failed, the heat limits of the elements j … k−1 still bound ``x`` from above
+times ``x`` (:func:`beamplan.optimise.lp.build_lp`), and an adjustable
+element right after the chain takes ``x`` times that product as its input.
+Failing element k of a chain zeroes ``x`` in every row after k and lifts k's
+heat limit; failing the adjustable element zeroes ``x`` in its own rows and
+lifts its heat limit (:meth:`beamplan.optimise.live.LiveModel.outage`). So
+the LPs of failing member j and member k > j differ in one way only: with k
+failed, the heat limits of the members j … k−1 still bound ``x`` from above
 (``x ≤ limit ÷ coefficient``). Power into a failed chain reaches nothing, so
 those bounds rarely bind.
 
@@ -37,7 +39,11 @@ BOUND_RTOL = 1e-9  # a margin below each bound, far above the solver's feasibili
 
 
 def chains(network: Network) -> dict[str, tuple[int, int]]:
-    """Each fixed-gain element's chain (the index of the link into it) and its place in it.
+    """Each chain member's chain (the index of the link into its head) and place in it.
+
+    A chain is a run of fixed-gain elements, and an adjustable (RANGE) element
+    right after one as its last member: the LP contracts the run into one
+    column, which is also the adjustable element's input.
 
     Examples
     --------
@@ -49,11 +55,16 @@ def chains(network: Network) -> dict[str, tuple[int, int]]:
     """
     out: dict[str, tuple[int, int]] = {}
     for node in network.nodes:  # topological order: a chain's head comes first
-        if node.behaviour is not Behaviour.GAIN or len(network.in_links[node.id]) != 1:
+        links = network.in_links[node.id]
+        if node.behaviour not in (Behaviour.GAIN, Behaviour.RANGE) or len(links) != 1:
             continue
-        [into] = network.in_links[node.id]
-        before = out.get(into.tail)
-        out[node.id] = (before[0], before[1] + 1) if before else (into.index, 0)
+        [into] = links
+        tail = network.node[into.tail]
+        before = out.get(tail.id) if tail.behaviour is Behaviour.GAIN else None
+        if before is not None:
+            out[node.id] = (before[0], before[1] + 1)
+        elif node.behaviour is Behaviour.GAIN:
+            out[node.id] = (into.index, 0)
     return out
 
 
@@ -159,12 +170,15 @@ class ChainWatch:
 def covered(largest: float, bound: float) -> bool:
     """Whether a chain input that reached ``largest`` W stays within ``bound`` W.
 
+    An infinite bound (no heat limit between the two members) means the
+    very same LP, and always covers.
+
     Examples
     --------
     >>> covered(300.0, 7333.0), covered(300.0, 300.0), covered(0.0, 0.0)
     (True, False, True)
     """
-    return largest == 0.0 or largest <= bound * (1.0 - BOUND_RTOL)
+    return bound == float("inf") or largest == 0.0 or largest <= bound * (1.0 - BOUND_RTOL)
 
 
 def solve_sharing(live: LiveModel, chain: Mapping[str, tuple[int, int]],

@@ -293,8 +293,8 @@ def _plan_case(live: LiveModel, goal: str, base: CaseSummary, failed: tuple[str,
     return OutageResult(failed, kinds, after, at, moves, tried)
 
 
-def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[str, ...]]
-              ) -> list[OutageResult]:
+def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[str, ...]],
+              share: bool = True) -> list[OutageResult]:
     """Plan a chunk of outage cases on this process's live model (a worker's task).
 
     ``goal`` may also be ``"screen"``: the sweep's fast form of ``headroom``
@@ -308,14 +308,14 @@ def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[st
     if base_key not in _CACHE.bases:
         _CACHE.bases[base_key] = live.summary(goal)
     base = _CACHE.bases[base_key]
-    chain = _CACHE.chains.setdefault(base_key[:4], chains(live.network))
+    chain = _CACHE.chains.setdefault(base_key[:4], chains(live.network)) if share else {}
 
-    def share(first: OutageResult, failed: tuple[str, ...]) -> OutageResult:
+    def shared(first: OutageResult, failed: tuple[str, ...]) -> OutageResult:
         kinds = tuple(live.network.node[f].kind for f in failed)
         return replace(first, failed=failed, kinds=kinds, same_as=first.failed)
 
     return solve_sharing(live, chain, cases, lambda failed: _plan_case(live, goal, base, failed),
-                         share)
+                         shared)
 
 
 def _rank(result: OutageResult) -> tuple[int, int, float, float, str]:
@@ -351,7 +351,7 @@ def _cross_check(results: Iterable[OutageResult], spof: dict[str, tuple[str, ...
 def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str = "headroom",
               solver: str = "auto", executor: Executor | None = None, chunk_size: int = 0,
               progress: Callable[[int, int], None] | None = None,
-              exact: bool = False) -> SweepReport:
+              exact: bool = False, share: bool = True) -> SweepReport:
     """Re-plan every outage case and rank them by impact.
 
     Parameters
@@ -365,6 +365,10 @@ def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str =
         ``None`` runs them in this process.
     progress
         Called with (cases done, cases in all) as chunks finish.
+    share
+        Let the single outages of one fixed-gain chain share one solve where
+        an exact check allows it (:mod:`beamplan.analyses.chains`); ``False``
+        solves every case.
 
     Examples
     --------
@@ -390,12 +394,12 @@ def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str =
     try:
         if executor is None:
             for chunk in chunks:
-                results.extend(run_chunk(network, goal, solver, chunk))
+                results.extend(run_chunk(network, goal, solver, chunk, share))
                 if progress:
                     progress(len(results), len(cases))
         else:
             futures: list[Future[list[OutageResult]]] = [
-                executor.submit(run_chunk, network, goal, solver, chunk) for chunk in chunks]
+                executor.submit(run_chunk, network, goal, solver, chunk, share) for chunk in chunks]
             try:
                 from concurrent.futures import as_completed
 

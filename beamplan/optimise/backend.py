@@ -87,6 +87,10 @@ class HighsBackend:
     name = "HiGHS"
     freeze_slack = 1e-9
     freeze_abs_w = 1e-8
+    # Sweeps re-set every demand row for each case: skip coefficients that do not change
+    # and pass the right-hand sides to HiGHS in one call before each solve. Same LP, same
+    # answers; False makes every edit a HiGHS call at once.
+    batch_edits = True
 
     def __init__(self, model: LpModel) -> None:
         import highspy
@@ -105,6 +109,10 @@ class HighsBackend:
         self.col = np.array([v.index for v in model.columns], dtype=np.int64)
         self.row = np.array([r.index for r in model.rows], dtype=np.int64)
         self.senses = [r.sense for r in model.rows]
+        self._sense = np.array(self.senses, dtype=np.int64)
+        self._rhs_now: dict[int, float] = {}  # right-hand sides applied, by our row
+        self._rhs_todo: dict[int, float] = {}  # set since the last solve
+        self._coef_now: dict[tuple[int, int], float] = {}
         self._warm = False
         self.ncols = len(model.columns)
         self.version = (f"{self.highs.versionMajor()}.{self.highs.versionMinor()}."
@@ -120,16 +128,39 @@ class HighsBackend:
         self.highs.changeColBounds(int(self.col[col]), low, high)
 
     def set_rhs(self, row: int, value: float) -> None:
+        if self.batch_edits:
+            self._rhs_todo[row] = value
+            return
         sense = self.senses[row]
         low = value if sense >= 0 else -INF
         high = value if sense <= 0 else INF
         self.highs.changeRowBounds(int(self.row[row]), low, high)
 
     def set_coefficient(self, row: int, col: int, value: float) -> None:
+        if self.batch_edits:
+            if self._coef_now.get((row, col)) == value:
+                return
+            self._coef_now[(row, col)] = value
         self.highs.changeCoeff(int(self.row[row]), int(self.col[col]), value)
+
+    def _apply_rhs(self) -> None:
+        """Pass the right-hand sides set since the last solve that changed, in one call."""
+        now = self._rhs_now
+        todo = {r: v for r, v in self._rhs_todo.items() if now.get(r) != v}
+        self._rhs_todo.clear()
+        if not todo:
+            return
+        now.update(todo)
+        rows = np.fromiter(todo, dtype=np.int64, count=len(todo))
+        values = np.fromiter(todo.values(), dtype=np.float64, count=len(todo))
+        sense = self._sense[rows]
+        low = np.where(sense >= 0, values, -INF)
+        high = np.where(sense <= 0, values, INF)
+        self.highs.changeRowsBounds(len(todo), self.row[rows].astype(np.int32), low, high)
 
     def solve(self) -> RawSolution:
         status_enum = self._highspy.HighsModelStatus
+        self._apply_rhs()
         self.highs.run()
         status = self.highs.getModelStatus()
         if status != status_enum.kOptimal and self._warm:
