@@ -85,3 +85,20 @@ def test_bad_cluster_options_are_usage_errors(argv: list[str],
     assert main(["sweep", "layouts/two-bay.yaml", "-q", *argv]) == 2
     err = capfd.readouterr().err
     assert "--cluster" in err and "Traceback" not in err
+
+
+def test_an_unreachable_scheduler_is_one_clear_line(monkeypatch: pytest.MonkeyPatch,
+                                                    capfd: pytest.CaptureFixture[str]) -> None:
+    import socket
+
+    from beamplan.cli import executors
+
+    with socket.socket() as probe:  # a port that nothing listens on (bound, then freed)
+        probe.bind(("127.0.0.1", 0))
+        port = probe.getsockname()[1]
+    monkeypatch.setattr(executors, "CONNECT_TIMEOUT", "1s")
+    address = f"tcp://127.0.0.1:{port}"
+    assert main(["sweep", "layouts/pilot-line.yaml", "-q", "--cluster", address]) == 2
+    err = capfd.readouterr().err
+    assert err.startswith(f"beamplan: error: --cluster {address}: cannot reach")
+    assert err.count("\n") == 1
