@@ -16,13 +16,14 @@ ranked by the view after switching.
 from __future__ import annotations
 
 import itertools
-import threading
+import pickle
 from collections.abc import Callable, Iterable, Sequence
 from concurrent.futures import Executor, Future
 from dataclasses import dataclass, field, replace
 
 from beamplan.analyses.chains import chains, group_cases, solve_sharing
 from beamplan.analyses.switching import SwitchMove, best_positions, search_kind
+from beamplan.analyses.workers import CACHE, live_model, model_key, models_built, packed_model
 from beamplan.network.dominators import single_points_of_failure
 from beamplan.network.graph import Network
 from beamplan.optimise.live import CaseSummary, LiveModel
@@ -30,7 +31,7 @@ from beamplan.optimise.planner import MET_RTOL
 from beamplan.optimise.result import Plan
 
 __all__ = ["OutageResult", "OutageView", "SweepReport", "models_built", "outage_cases",
-           "run_chunk", "run_sweep"]
+           "run_chunk", "run_packed", "run_sweep"]
 
 LOST_RTOL = 1e-6
 
@@ -238,51 +239,6 @@ def _switch_back(live: LiveModel, goal: str, base: CaseSummary, failed: tuple[st
     return best_positions(movable, current, evaluate, _service_key, at)
 
 
-class _Cache(threading.local):
-    """This worker's live model and base summaries.
-
-    Module-level, so a worker process (of a process pool or a Dask worker)
-    keeps its model across the chunks it runs; per thread, so a Dask worker
-    with several threads never shares one model between two chunks at once.
-    """
-
-    def __init__(self) -> None:
-        self.models: dict[tuple[str, int, int, str], LiveModel] = {}
-        self.bases: dict[tuple[str, int, int, str, str], CaseSummary] = {}
-        self.chains: dict[tuple[str, int, int, str], dict[str, tuple[int, int]]] = {}
-        self.built = 0  # live models built by this thread (tests check the re-use)
-
-
-_CACHE = _Cache()
-
-
-def _key(network: Network, solver: str) -> tuple[str, int, int, str]:
-    # By content, not identity: a worker process gets a fresh copy with every chunk.
-    return (network.sha256, len(network.nodes), len(network.links), solver)
-
-
-def _live(network: Network, solver: str) -> LiveModel:
-    key = _key(network, solver)
-    if key not in _CACHE.models:
-        _CACHE.models.clear()
-        _CACHE.bases.clear()
-        _CACHE.chains.clear()
-        _CACHE.models[key] = LiveModel(network, solver)
-        _CACHE.built += 1
-    return _CACHE.models[key]
-
-
-def models_built() -> int:
-    """How many live models this worker thread has built (one per network swept).
-
-    Examples
-    --------
-    >>> models_built() >= 0
-    True
-    """
-    return _CACHE.built
-
-
 def _plan_case(live: LiveModel, goal: str, base: CaseSummary, failed: tuple[str, ...]
                ) -> OutageResult:
     network = live.network
@@ -303,12 +259,23 @@ def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[st
     that is exact (:mod:`beamplan.analyses.chains`); the shared results name
     the case solved in ``same_as``.
     """
-    live = _live(network, solver)
-    base_key = (*_key(network, solver), goal)
-    if base_key not in _CACHE.bases:
-        _CACHE.bases[base_key] = live.summary(goal)
-    base = _CACHE.bases[base_key]
-    chain = _CACHE.chains.setdefault(base_key[:4], chains(live.network)) if share else {}
+    return _run(live_model(network, solver), model_key(network, solver), goal, cases, share)
+
+
+def run_packed(packed: bytes, key: tuple[str, int, int, str], goal: str, solver: str,
+               cases: Sequence[tuple[str, ...]], share: bool = True) -> list[OutageResult]:
+    """:func:`run_chunk` for a network sent pickled: a worker that already holds the
+    live model for ``key`` does not unpickle it again (a worker's task)."""
+    return _run(packed_model(packed, key, solver), key, goal, cases, share)
+
+
+def _run(live: LiveModel, key: tuple[str, int, int, str], goal: str,
+         cases: Sequence[tuple[str, ...]], share: bool) -> list[OutageResult]:
+    base_key = (*key, goal)
+    if base_key not in CACHE.bases:
+        CACHE.bases[base_key] = live.summary(goal)
+    base = CACHE.bases[base_key]
+    chain = CACHE.chains.setdefault(key, chains(live.network)) if share else {}
 
     def shared(first: OutageResult, failed: tuple[str, ...]) -> OutageResult:
         kinds = tuple(live.network.node[f].kind for f in failed)
@@ -398,8 +365,11 @@ def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str =
                 if progress:
                     progress(len(results), len(cases))
         else:
+            # Pickled once here; a worker unpickles it only the first time it sees it.
+            packed, key = pickle.dumps(network, pickle.HIGHEST_PROTOCOL), model_key(network, solver)
             futures: list[Future[list[OutageResult]]] = [
-                executor.submit(run_chunk, network, goal, solver, chunk, share) for chunk in chunks]
+                executor.submit(run_packed, packed, key, goal, solver, chunk, share)
+                for chunk in chunks]
             try:
                 from concurrent.futures import as_completed
 
