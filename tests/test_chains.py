@@ -97,3 +97,21 @@ def test_covered_needs_a_margin() -> None:
     assert covered(0.0, 0.0) and covered(1.0, 2.0)
     assert not covered(1.0, 1.0) and not covered(float("inf"), 5.0)  # a solve not optimal
     assert covered(float("inf"), float("inf"))  # no bound between: the very same LP
+
+
+@pytest.mark.parametrize("name", DEMOS)
+def test_the_case_network_of_an_outage_is_the_rebuilt_one(name: str) -> None:
+    # Reference: Network.with_nodes, which the live model's faster copy stands in for.
+    from beamplan.network.behaviour import out_of_service
+    from beamplan.optimise.live import LiveModel
+
+    net = build_network(load_layout(f"layouts/{name}.yaml"))
+    live = LiveModel(net)
+    for node in net.nodes:
+        changed = {node.id: out_of_service(node)}
+        with live.outage([node.id]) as ours:
+            theirs = net.with_nodes(changed)
+            assert ours == theirs and ours.node == theirs.node, node.id
+            for family in ("sources", "scanners", "elements"):
+                assert getattr(ours, family) == getattr(theirs, family), (node.id, family)
+            assert ours.in_links is net.in_links and ours.out_link is net.out_link

@@ -34,6 +34,9 @@ __all__ = ["OutageResult", "OutageView", "SweepReport", "models_built", "outage_
            "run_chunk", "run_packed", "run_sweep"]
 
 LOST_RTOL = 1e-6
+# This (main) thread's kept models and bases, under the names tests clear between reruns
+# (the tables themselves live in analyses/workers, per worker thread).
+_WORKERS, _BASES = CACHE.models, CACHE.bases
 
 
 @dataclass(frozen=True)
