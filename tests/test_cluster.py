@@ -52,9 +52,9 @@ def test_workers_keep_their_live_model_across_chunks(client: Any) -> None:
     executor.shutdown()
     after = client.run(models_built)
     # 79 cases in chunks of 8 are 10 chunks on 2 workers (hand count), yet each worker
-    # built at most one live model for this network: the model is kept between chunks.
+    # built one live model for this network: the model is kept between chunks.
     built = {w: after[w] - before.get(w, 0) for w in after}
-    assert len(built) == 2 and sum(built.values()) <= 2, built
+    assert len(built) == 2 and 1 <= sum(built.values()) <= 2 and max(built.values()) <= 1, built
     assert to_json(sweep_document(there, "test")) == to_json(sweep_document(here, "test"))
 
 

@@ -27,10 +27,10 @@ class _Cache(threading.local):
         self.models: dict[Key, LiveModel] = {}
         self.bases: dict[tuple[str, int, int, str, str], CaseSummary] = {}
         self.chains: dict[Key, dict[str, tuple[int, int]]] = {}
-        self.built = 0  # live models built by this thread (tests check the re-use)
 
 
 CACHE = _Cache()
+_BUILT = [0]  # live models built in this process, by any thread (tests check the re-use)
 
 
 def model_key(network: Network, solver: str) -> Key:
@@ -55,7 +55,7 @@ def live_model(network: Network, solver: str) -> LiveModel:
         CACHE.bases.clear()
         CACHE.chains.clear()
         CACHE.models[key] = LiveModel(network, solver)
-        CACHE.built += 1
+        _BUILT[0] += 1
     return CACHE.models[key]
 
 
@@ -70,11 +70,11 @@ def packed_model(packed: bytes, key: Key, solver: str) -> LiveModel:
 
 
 def models_built() -> int:
-    """How many live models this worker thread has built (one per network swept).
+    """How many live models this process has built, in all its threads.
 
     Examples
     --------
     >>> models_built() >= 0
     True
     """
-    return CACHE.built
+    return _BUILT[0]
