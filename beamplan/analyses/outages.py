@@ -16,20 +16,27 @@ ranked by the view after switching.
 from __future__ import annotations
 
 import itertools
+import pickle
 from collections.abc import Callable, Iterable, Sequence
 from concurrent.futures import Executor, Future
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
+from beamplan.analyses.chains import chains, group_cases, solve_sharing
 from beamplan.analyses.switching import SwitchMove, best_positions, search_kind
+from beamplan.analyses.workers import CACHE, live_model, model_key, models_built, packed_model
 from beamplan.network.dominators import single_points_of_failure
 from beamplan.network.graph import Network
 from beamplan.optimise.live import CaseSummary, LiveModel
 from beamplan.optimise.planner import MET_RTOL
 from beamplan.optimise.result import Plan
 
-__all__ = ["OutageResult", "OutageView", "SweepReport", "outage_cases", "run_sweep"]
+__all__ = ["OutageResult", "OutageView", "SweepReport", "models_built", "outage_cases",
+           "run_chunk", "run_packed", "run_sweep"]
 
 LOST_RTOL = 1e-6
+# This (main) thread's kept models and bases, under the names tests clear between reruns
+# (the tables themselves live in analyses/workers, per worker thread).
+_WORKERS, _BASES = CACHE.models, CACHE.bases
 
 
 @dataclass(frozen=True)
@@ -64,6 +71,7 @@ class OutageResult:
     at_failure: OutageView
     moves: tuple[SwitchMove, ...] = ()
     tried: int = 0
+    same_as: tuple[str, ...] = ()  # the case whose solve this one shares (same chain)
 
     @property
     def label(self) -> str:
@@ -136,6 +144,11 @@ class SweepReport:
     def finished(self) -> int:
         """How many cases were planned."""
         return len(self.results)
+
+    @property
+    def distinct(self) -> int:
+        """How many cases were solved; the others share the solve of a case of their chain."""
+        return sum(1 for r in self.results if not r.same_as)
 
 
 def outage_cases(network: Network, *, kinds: Sequence[str] = (), ids: Sequence[str] = (),
@@ -229,45 +242,50 @@ def _switch_back(live: LiveModel, goal: str, base: CaseSummary, failed: tuple[st
     return best_positions(movable, current, evaluate, _service_key, at)
 
 
-_WORKERS: dict[tuple[str, int, int, str], LiveModel] = {}
-_BASES: dict[tuple[str, int, int, str, str], CaseSummary] = {}
+def _plan_case(live: LiveModel, goal: str, base: CaseSummary, failed: tuple[str, ...]
+               ) -> OutageResult:
+    network = live.network
+    with live.outage(failed):
+        at = _impact(base, live.summary(goal), network)
+        after, moves, tried = _switch_back(live, goal, base, failed, at)
+    kinds = tuple(network.node[f].kind for f in failed)
+    return OutageResult(failed, kinds, after, at, moves, tried)
 
 
-def _key(network: Network, solver: str) -> tuple[str, int, int, str]:
-    # By content, not identity: a worker process gets a fresh copy with every chunk.
-    return (network.sha256, len(network.nodes), len(network.links), solver)
-
-
-def _live(network: Network, solver: str) -> LiveModel:
-    key = _key(network, solver)
-    if key not in _WORKERS:
-        _WORKERS.clear()
-        _BASES.clear()
-        _WORKERS[key] = LiveModel(network, solver)
-    return _WORKERS[key]
-
-
-def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[str, ...]]
-              ) -> list[OutageResult]:
+def run_chunk(network: Network, goal: str, solver: str, cases: Sequence[tuple[str, ...]],
+              share: bool = True) -> list[OutageResult]:
     """Plan a chunk of outage cases on this process's live model (a worker's task).
 
     ``goal`` may also be ``"screen"``: the sweep's fast form of ``headroom``
-    (see :func:`beamplan.optimise.goals.run_goal`).
+    (see :func:`beamplan.optimise.goals.run_goal`). Single outages of one
+    fixed-gain chain that follow each other in ``cases`` share one solve where
+    that is exact (:mod:`beamplan.analyses.chains`); the shared results name
+    the case solved in ``same_as``.
     """
-    live = _live(network, solver)
-    base_key = (*_key(network, solver), goal)
-    if base_key not in _BASES:
-        _BASES[base_key] = live.summary(goal)
-    base = _BASES[base_key]
-    network = live.network
-    out = []
-    for failed in cases:
-        with live.outage(failed):
-            at = _impact(base, live.summary(goal), network)
-            after, moves, tried = _switch_back(live, goal, base, failed, at)
-        kinds = tuple(network.node[f].kind for f in failed)
-        out.append(OutageResult(failed, kinds, after, at, moves, tried))
-    return out
+    return _run(live_model(network, solver), model_key(network, solver), goal, cases, share)
+
+
+def run_packed(packed: bytes, key: tuple[str, int, int, str], goal: str, solver: str,
+               cases: Sequence[tuple[str, ...]], share: bool = True) -> list[OutageResult]:
+    """:func:`run_chunk` for a network sent pickled: a worker that already holds the
+    live model for ``key`` does not unpickle it again (a worker's task)."""
+    return _run(packed_model(packed, key, solver), key, goal, cases, share)
+
+
+def _run(live: LiveModel, key: tuple[str, int, int, str], goal: str,
+         cases: Sequence[tuple[str, ...]], share: bool) -> list[OutageResult]:
+    base_key = (*key, goal)
+    if base_key not in CACHE.bases:
+        CACHE.bases[base_key] = live.summary(goal)
+    base = CACHE.bases[base_key]
+    chain = CACHE.chains.setdefault(key, chains(live.network)) if share else {}
+
+    def shared(first: OutageResult, failed: tuple[str, ...]) -> OutageResult:
+        kinds = tuple(live.network.node[f].kind for f in failed)
+        return replace(first, failed=failed, kinds=kinds, same_as=first.failed)
+
+    return solve_sharing(live, chain, cases, lambda failed: _plan_case(live, goal, base, failed),
+                         shared)
 
 
 def _rank(result: OutageResult) -> tuple[int, int, float, float, str]:
@@ -303,7 +321,7 @@ def _cross_check(results: Iterable[OutageResult], spof: dict[str, tuple[str, ...
 def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str = "headroom",
               solver: str = "auto", executor: Executor | None = None, chunk_size: int = 0,
               progress: Callable[[int, int], None] | None = None,
-              exact: bool = False) -> SweepReport:
+              exact: bool = False, share: bool = True) -> SweepReport:
     """Re-plan every outage case and rank them by impact.
 
     Parameters
@@ -317,6 +335,10 @@ def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str =
         ``None`` runs them in this process.
     progress
         Called with (cases done, cases in all) as chunks finish.
+    share
+        Let the single outages of one fixed-gain chain share one solve where
+        an exact check allows it (:mod:`beamplan.analyses.chains`); ``False``
+        solves every case.
 
     Examples
     --------
@@ -331,18 +353,26 @@ def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str =
     if goal == "headroom" and not exact:
         goal = "screen"
     size = chunk_size or max(8, min(200, len(cases) // 16 or 1))
-    chunks = [list(cases[i:i + size]) for i in range(0, len(cases), size)]
+    chunks: list[list[tuple[str, ...]]] = [[]]
+    for group in group_cases(network, cases):  # a chain's outages stay in one chunk
+        if len(chunks[-1]) >= size:
+            chunks.append([])
+        chunks[-1].extend(group)
+    chunks = [chunk for chunk in chunks if chunk]
     results: list[OutageResult] = []
     interrupted = False
     try:
         if executor is None:
             for chunk in chunks:
-                results.extend(run_chunk(network, goal, solver, chunk))
+                results.extend(run_chunk(network, goal, solver, chunk, share))
                 if progress:
                     progress(len(results), len(cases))
         else:
+            # Pickled once here; a worker unpickles it only the first time it sees it.
+            packed, key = pickle.dumps(network, pickle.HIGHEST_PROTOCOL), model_key(network, solver)
             futures: list[Future[list[OutageResult]]] = [
-                executor.submit(run_chunk, network, goal, solver, chunk) for chunk in chunks]
+                executor.submit(run_packed, packed, key, goal, solver, chunk, share)
+                for chunk in chunks]
             try:
                 from concurrent.futures import as_completed
 

@@ -3,12 +3,12 @@
 from __future__ import annotations
 
 import argparse
-import os
 import re
 import sys
 from typing import TYPE_CHECKING, Any
 
 from beamplan import __version__
+from beamplan.cli.executors import add_executor_options, executor_from
 from beamplan.errors import ExitCode, UsageError, excerpt
 
 if TYPE_CHECKING:
@@ -137,22 +137,10 @@ def _sweep(args: argparse.Namespace) -> int:
                              pairs=args.pairs, max_pairs=args.max_pairs)
     except ValueError as exc:
         raise UsageError(str(exc)) from None
-    jobs = args.jobs if args.jobs > 0 else (1 if len(cases) < 300 else (os.cpu_count() or 1))
-    executor = None
-    if jobs > 1:
-        import multiprocessing
-        from concurrent.futures import ProcessPoolExecutor
-
-        method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() \
-            else "spawn"
-        executor = ProcessPoolExecutor(jobs, mp_context=multiprocessing.get_context(method))
-    try:
-        with progress_bar("outage cases", sys.stderr) as step:
-            report = run_sweep(network, cases, goal=args.goal, solver=args.solver,
-                               executor=executor, progress=step, exact=args.exact)
-    finally:
-        if executor is not None:
-            executor.shutdown(wait=False, cancel_futures=True)
+    with executor_from(args, work=len(cases), progress=None if args.quiet else sys.stderr) \
+            as executor, progress_bar("outage cases", sys.stderr) as step:
+        report = run_sweep(network, cases, goal=args.goal, solver=args.solver,
+                           executor=executor, progress=step, exact=args.exact)
     _outputs(args, "sweep", report, network)
     if report.interrupted:
         sys.stderr.write(f"beamplan: interrupted after {report.finished} of "
@@ -220,8 +208,7 @@ def register(sub: Any) -> None:
     sweep.add_argument("--pairs", action="store_true", help="fail two at a time (N-2)")
     sweep.add_argument("--max-pairs", type=int, default=5000,
                        help="refuse more pairs than this (default 5000)")
-    sweep.add_argument("--jobs", type=int, default=0,
-                       help="worker processes (default: 1 for small sweeps, else every core)")
+    add_executor_options(sweep)
     sweep.add_argument("--top", type=int, default=20, help="rows in the terminal table")
     sweep.add_argument("--exact", action="store_true",
                        help="re-plan each case by full progressive filling (slower); by "

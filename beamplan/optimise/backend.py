@@ -138,6 +138,10 @@ class HighsBackend:
     freeze_slack = 1e-9
     freeze_abs_w = 1e-8
     primal_resolves = True  # re-solve with primal simplex when the last optimum stays feasible
+    # Sweeps re-set every demand row for each case: skip coefficients that do not change
+    # and pass the right-hand sides to HiGHS in one call before each solve. Same LP, same
+    # answers; False makes every edit a HiGHS call at once.
+    batch_edits = True
 
     def __init__(self, model: LpModel) -> None:
         import highspy
@@ -155,6 +159,10 @@ class HighsBackend:
         self.col[order] = np.arange(self.ncols, dtype=np.int64)
         self.row = np.arange(len(model.row_info), dtype=np.int64)
         self.senses = model.sense
+        self._sense = np.array(self.senses, dtype=np.int64)
+        self._rhs_now: dict[int, float] = {}  # right-hand sides applied, by our row
+        self._rhs_todo: dict[int, float] = {}  # set since the last solve
+        self._coef_now: dict[tuple[int, int], float] = {}
         self._warm = False
         # What is needed to tell whether the last optimum is still primal feasible
         # after the edits since (see _still_feasible): then primal simplex re-solves.
@@ -186,12 +194,19 @@ class HighsBackend:
         sense = self.senses[row]
         low = value if sense >= 0 else -INF
         high = value if sense <= 0 else INF
-        self.highs.changeRowBounds(int(self.row[row]), low, high)
         self._row_low[row], self._row_high[row] = low, high
         if self._act is not None and not _within(float(self._act[row]), low, high):
             self._feasible = False
+        if self.batch_edits:
+            self._rhs_todo[row] = value
+            return
+        self.highs.changeRowBounds(int(self.row[row]), low, high)
 
     def set_coefficient(self, row: int, col: int, value: float) -> None:
+        if self.batch_edits:
+            if self._coef_now.get((row, col)) == value:
+                return
+            self._coef_now[(row, col)] = value
         self.highs.changeCoeff(int(self.row[row]), int(self.col[col]), value)
         old = self._coef.get((row, col))
         if old is None:
@@ -206,8 +221,25 @@ class HighsBackend:
         self.highs.setOptionValue("simplex_strategy", 1)
         self.highs.setOptionValue("simplex_dual_edge_weight_strategy", -1)
 
+    def _apply_rhs(self) -> None:
+        """Pass the right-hand sides set since the last solve that changed, in one call."""
+        now = self._rhs_now
+        todo = {r: v for r, v in self._rhs_todo.items() if now.get(r) != v}
+        self._rhs_todo.clear()
+        if not todo:
+            return
+        now.update(todo)
+        rows = np.fromiter(todo, dtype=np.int64, count=len(todo))
+        values = np.fromiter(todo.values(), dtype=np.float64, count=len(todo))
+        sense = self._sense[rows]
+        low = np.where(sense >= 0, values, -INF)
+        high = np.where(sense <= 0, values, INF)
+        self.highs.changeRowsBounds(  # type: ignore[attr-defined]
+            len(todo), self.row[rows].astype(np.int32), low, high)
+
     def solve(self) -> RawSolution:
         status_enum = self._highspy.HighsModelStatus
+        self._apply_rhs()
         # After edits that keep the last optimum feasible (a level frozen in
         # progressive filling, a new objective), primal simplex starts from a
         # feasible basis and needs few iterations; dual simplex would start from

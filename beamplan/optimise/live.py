@@ -67,6 +67,8 @@ class LiveModel:
             self._rows.setdefault(info.node, []).append(index)
         self.switches = self.switches_of(network)
         self._failed: set[str] = set()
+        self._where = {family: {n.id: i for i, n in enumerate(getattr(network, family))}
+                       for family in ("nodes", "sources", "scanners", "elements")}
 
     @staticmethod
     def switches_of(network: Network) -> dict[str, tuple[str, ...]]:
@@ -236,13 +238,33 @@ class LiveModel:
                 self._select_bounds(switch_id, str(self.network.node[switch_id].select))
             self.model.network, self.model.unreachable = before_network, before_cut
 
+    def _with_nodes(self, changed: dict[str, Node]) -> Network:
+        """``self.network.with_nodes(changed)``, patching positions rather than
+        rebuilding every table in Python (a sweep makes one per case)."""
+        net = self.network
+        other = replace(net, nodes=self._patched("nodes", changed))
+        for name in ("in_links", "out_link"):
+            other.__dict__[name] = getattr(net, name)
+        other.__dict__["node"] = {**net.node, **changed}
+        for name in ("sources", "scanners", "elements"):
+            other.__dict__[name] = self._patched(name, changed)
+        return other
+
+    def _patched(self, family: str, changed: dict[str, Node]) -> tuple[Node, ...]:
+        where = self._where[family]
+        nodes = list(getattr(self.network, family))
+        for node_id, node in changed.items():
+            if node_id in where:
+                nodes[where[node_id]] = node
+        return tuple(nodes)
+
     @contextlib.contextmanager
     def outage(self, node_ids: Iterable[str]) -> Iterator[Network]:
         """Take nodes out of service for the duration of the ``with`` block."""
         ids = list(node_ids)
         originals = [self.network.node[i] for i in ids]
         failed = {n.id: out_of_service(n) for n in originals}
-        case_network = self.network.with_nodes(failed)
+        case_network = self._with_nodes(failed)
         for node in originals:
             if node.in_service:
                 self._set_service(node, False)
