@@ -11,7 +11,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
 from beamplan.report.diagram import PALETTE, diagram_model
 
-__all__ = ["diagram_dot"]
+__all__ = ["diagram_dot", "summary_dot"]
 
 
 def _dot_quote(text: str) -> str:
@@ -60,4 +60,41 @@ def diagram_dot(network: Network, plan: Plan | None = None, *,
         keys = " ".join(_dot_quote(b.key) for b in d.boxes.values() if b.shape == shape)
         if keys:
             out.append(f"  {{rank={rank}; {keys}}}")
+    return "\n".join([*out, "}"]) + "\n"
+
+
+def summary_dot(network: Network, plan: Plan | None = None) -> str:
+    """The summary diagram (subtrees folded) as Graphviz DOT text, beam from top to bottom.
+
+    Examples
+    --------
+    >>> import beamplan
+    >>> from beamplan.network.graph import build_network
+    >>> net = build_network(beamplan.load("layouts/two-bay.yaml"))
+    >>> text = summary_dot(net, beamplan.plan(net))
+    >>> text.splitlines()[0], "rankdir=TB" in text
+    ('digraph "two-bay" {', True)
+    """
+    from beamplan.report.summary_diagram import summary_model
+
+    s = summary_model(network, plan)
+    out = [f"digraph {_dot_quote(network.name)} {{",
+           "  // Summary: each box with a heavy border is a folded subtree with its totals; "
+           "pen width proportional to power. See docs/pictures.md.",
+           f"  graph [rankdir=TB, label={_dot_quote(s.title + chr(10) + s.subtitle)}, "
+           'labelloc=t, fontname="sans-serif", nodesep=0.25, ranksep=0.3];',
+           f'  node [fontname="sans-serif", fontsize=9, shape=box, style=filled, '
+           f'color="{PALETTE["ink"]}"];',
+           f'  edge [color="{PALETTE["beam"]}", arrowsize=0.5];']
+    for row in s.rows:
+        b = row.box
+        style = ["filled"] + (["rounded"] if b.shape == "scanner" else []) + \
+            (["dashed"] if b.dashed else []) + (["bold"] if b.shape == "fold" else [])
+        extra = ", penwidth=3" if b.shape == "fold" else ""
+        out.append(f"  {_dot_quote(b.key)} [label={_dot_quote(chr(10).join(b.lines))}, "
+                   f'style="{",".join(style)}", fillcolor="{b.fill}"{extra}];')
+    for row in s.rows:
+        if row.parent >= 0:
+            out.append(f"  {_dot_quote(s.rows[row.parent].box.key)} -> "
+                       f"{_dot_quote(row.box.key)} [penwidth={row.width_pt:.2f}];")
     return "\n".join([*out, "}"]) + "\n"
