@@ -67,6 +67,7 @@ class Stages:
         if self._task is None:
             self._task = self._bar.add_task(label, total=None)
         self._bar.update(self._task, description=label)
+        self._bar.refresh()  # at once, so that even a short stage is named
 
 
 @contextlib.contextmanager
