@@ -63,7 +63,17 @@ def _draw(args: argparse.Namespace) -> int:
         summary = args.summary or (at_scale(shown) and not args.detail)
         stages.show(f"drawing the {'summary' if summary else 'diagram'} "
                     f"({len(shown.nodes)} nodes)")
-        data = _picture(shown, plan, fmt, summary, args.group_chains)
+        data = None
+        if args.engine == "graphviz" and fmt != "dot":
+            from beamplan.report.dot import graphviz_picture
+
+            text = _picture(shown, plan, "dot", summary, args.group_chains).decode("utf-8")
+            data = graphviz_picture(text, fmt)
+            if data is None:
+                sys.stderr.write("beamplan: note: Graphviz's 'dot' program is not installed; "
+                                 "drawn with beamplan's own layout instead\n")
+        if data is None:
+            data = _picture(shown, plan, fmt, summary, args.group_chains)
         emit(args.output, data if fmt in ("png", "pdf") else data.decode("utf-8"),
              [args.layout])
     if args.output != STDOUT and not args.quiet:
@@ -135,6 +145,9 @@ def register(sub: Any) -> None:
     draw.add_argument("--focus", metavar="ID",
                       help="draw only the part under this node: the nodes every beam path "
                       "to which passes through it (a bay, a subtree)")
+    draw.add_argument("--engine", choices=("builtin", "graphviz"), default="builtin",
+                      help="who lays the picture out: beamplan itself (default) or Graphviz's "
+                      "'dot' program, if installed (else beamplan, with a note)")
     draw.add_argument("--format", choices=("svg", "png", "pdf", "dot"), default=None,
                       help="the picture format, when the suffix of FILE does not say it")
     draw.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")

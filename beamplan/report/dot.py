@@ -7,11 +7,17 @@ reader's Graphviz lays them out.
 
 from __future__ import annotations
 
+import re
+import shutil
+import subprocess
+import textwrap
+
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
+from beamplan.report import CAUTION
 from beamplan.report.diagram import PALETTE, diagram_model
 
-__all__ = ["diagram_dot", "summary_dot"]
+__all__ = ["diagram_dot", "graphviz_picture", "summary_dot"]
 
 
 def _dot_quote(text: str) -> str:
@@ -98,3 +104,33 @@ def summary_dot(network: Network, plan: Plan | None = None) -> str:
             out.append(f"  {_dot_quote(s.rows[row.parent].box.key)} -> "
                        f"{_dot_quote(row.box.key)} [penwidth={row.width_pt:.2f}];")
     return "\n".join([*out, "}"]) + "\n"
+
+
+_GRAPH_LABEL = re.compile(r'^  graph \[rankdir=\w+, label=("(?:[^"\\]|\\.)*")', re.M)
+
+
+def graphviz_picture(dot_text: str, fmt: str) -> bytes | None:
+    """Lay out and render DOT text with Graphviz's ``dot`` program, if it is installed.
+
+    The safety caution joins the title. Returns ``None`` when ``dot`` is not on
+    the PATH: Graphviz is optional, and the caller falls back to beamplan's own
+    layout. ``fmt`` is ``svg``, ``png`` or ``pdf``.
+
+    Examples
+    --------
+    >>> import shutil
+    >>> data = graphviz_picture('digraph "x" {\n  "a" -> "b";\n}\n', "svg")
+    >>> data is None if shutil.which("dot") is None else data.startswith(b"<?xml")
+    True
+    """
+    program = shutil.which("dot")
+    if program is None:
+        return None
+    found = _GRAPH_LABEL.search(dot_text)
+    caution = "\\n".join(textwrap.wrap(CAUTION, 100))
+    if found:  # a later graph attribute wins: the title, then the caution
+        label = found.group(1)[:-1] + "\\n\\n" + caution + '"'
+        dot_text = dot_text.rstrip().removesuffix("}") + f"  graph [label={label}];\n}}\n"
+    done = subprocess.run([program, f"-T{fmt}"], input=dot_text.encode("utf-8"),
+                          capture_output=True, check=True, timeout=900)
+    return done.stdout
