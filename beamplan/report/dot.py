@@ -119,7 +119,7 @@ def graphviz_picture(dot_text: str, fmt: str) -> bytes | None:
     Examples
     --------
     >>> import shutil
-    >>> data = graphviz_picture('digraph "x" {\n  "a" -> "b";\n}\n', "svg")
+    >>> data = graphviz_picture('digraph "x" { "a" -> "b"; }', "svg")
     >>> data is None if shutil.which("dot") is None else data.startswith(b"<?xml")
     True
     """
