@@ -201,11 +201,11 @@ def test_report_of_a_campus_draws_the_summary() -> None:
     folded = plan_html(plan, network, layout_path="campus.yaml", version="0", date=DATE)
     assert '<figure class="fit">' in folded and "bay-2-m1 and below" in folded
     assert 'id="diagram-node-s2-3-f1"' not in folded  # inside a folded bay
-    small_network, small_plan, small = demo("two-bay.yaml")  # 5 scanners: every box
+    small_network, small_plan, small = demo("two-bay.yaml")  # 12 scanners: every box
     assert '<figure class="fit">' not in small and 'id="diagram-node-a-fold"' in small
     summary = plan_html(small_plan, small_network, layout_path="two-bay.yaml", version="0",
                         date=DATE, detail=False)
-    assert '<figure class="fit">' in summary  # the outline; all 5 scanners fit unfolded
+    assert '<figure class="fit">' in summary  # the outline; all 12 scanners fit unfolded
 
 
 def _cases_page(layout: pathlib.Path | str, cases_text: str) -> str:
