@@ -81,9 +81,14 @@ def _cases(args: argparse.Namespace) -> int:
         raise UsageError("--steady works with --goal headroom")
     if args.steady_switches and args.steady is None:
         raise UsageError("--steady-switches works with --steady")
-    comparison = compare_cases(base, cases, goal=args.goal, base_doc=base_doc,
-                               steady=args.steady, solver=args.solver,
-                               names=args.only or None, steady_switches=args.steady_switches)
+    from beamplan.cli.commands import _stages
+
+    with _stages(args) as stages:
+        stages.show(f"planning the base layout and {len(args.only or cases)} case(s)")
+        comparison = compare_cases(base, cases, goal=args.goal, base_doc=base_doc,
+                                   steady=args.steady, solver=args.solver,
+                                   names=args.only or None,
+                                   steady_switches=args.steady_switches)
     _outputs(args, "cases", comparison)
     short = any(c.plan.status == "short" for c in comparison.cases)
     return int(ExitCode.SHORT if short else ExitCode.OK)
@@ -128,17 +133,19 @@ def _outputs(args: argparse.Namespace, what: str, result: Any,
 def _sweep(args: argparse.Namespace) -> int:
     _refuse_early(args)
     from beamplan.analyses.outages import outage_cases, run_sweep
-    from beamplan.cli.commands import _load_network
+    from beamplan.cli.commands import _load_network, _stages
     from beamplan.report.progress import progress_bar
 
-    network = _load_network(args.layout, args.limits)
+    with _stages(args) as stages:
+        stages.show("loading the layout")
+        network = _load_network(args.layout, args.limits)
     try:
         cases = outage_cases(network, kinds=args.kind or (), ids=args.only or (),
                              pairs=args.pairs, max_pairs=args.max_pairs)
     except ValueError as exc:
         raise UsageError(str(exc)) from None
     with executor_from(args, work=len(cases), progress=None if args.quiet else sys.stderr) \
-            as executor, progress_bar("outage cases", sys.stderr) as step:
+            as executor, progress_bar("outage cases", None if args.quiet else sys.stderr) as step:
         report = run_sweep(network, cases, goal=args.goal, solver=args.solver,
                            executor=executor, progress=step, exact=args.exact)
     _outputs(args, "sweep", report, network)

@@ -21,6 +21,13 @@ def _console(stream: Any = None) -> Any:
     return make_console(stream or sys.stdout)
 
 
+def _stages(args: argparse.Namespace) -> Any:
+    """What a long command is doing, on stderr when it is a terminal and not ``-q``."""
+    from beamplan.report.progress import progress_stages
+
+    return progress_stages(sys.stderr, quiet=bool(getattr(args, "quiet", False)))
+
+
 def _existing_file(path: str) -> str:
     if not os.path.isfile(path):
         raise UsageError(f"no such layout file: {path!r}")
@@ -60,7 +67,9 @@ def _print_warnings(network: Any, every: bool = False) -> None:
 
 
 def _check(args: argparse.Namespace) -> int:
-    network = _load_network(args.layout, args.limits)
+    with _stages(args) as stages:
+        stages.show("loading and checking the layout")
+        network = _load_network(args.layout, args.limits)
     if not args.quiet:
         _print_warnings(network, args.all)
         elements = len(network.elements)
@@ -78,29 +87,34 @@ def _plan(args: argparse.Namespace) -> int:
     inputs = [args.layout]
     to_stdout = check([("--json", args.json), ("--html", args.html)], [("--csv", args.csv)],
                       inputs)
-    network = _load_network(args.layout, args.limits)
-    if not args.quiet:
-        _print_warnings(network)
-    plan = plan_network(network, args.goal, args.solver)
-    sizing = None
-    shown = not args.quiet or args.json or args.csv
-    if shown and (args.what_it_takes or not plan.all_met):
-        from beamplan.analyses.sizing_check import what_it_takes
+    with _stages(args) as stages:
+        stages.show("loading the layout")
+        network = _load_network(args.layout, args.limits)
+        if not args.quiet:
+            _print_warnings(network)
+        stages.show("planning")
+        plan = plan_network(network, args.goal, args.solver)
+        sizing = None
+        shown = not args.quiet or args.json or args.csv
+        if shown and (args.what_it_takes or not plan.all_met):
+            from beamplan.analyses.sizing_check import what_it_takes
 
-        sizing = what_it_takes(network, plan, args.solver)
-    if args.json:
-        from beamplan.report.document import plan_json
+            stages.show("working out what it takes")
+            sizing = what_it_takes(network, plan, args.solver)
+        if args.json:
+            from beamplan.report.document import plan_json
 
-        emit(args.json, plan_json(plan, __version__, sizing), inputs)
-    if args.csv:
-        from beamplan.report.document import write_csv
+            emit(args.json, plan_json(plan, __version__, sizing), inputs)
+        if args.csv:
+            from beamplan.report.document import write_csv
 
-        write_csv(plan, args.csv, inputs, sizing)
-    if args.html:
-        from beamplan.report.html import plan_html
+            write_csv(plan, args.csv, inputs, sizing)
+        if args.html:
+            from beamplan.report.html import plan_html
 
-        emit(args.html, plan_html(plan, network, layout_path=args.layout, version=__version__),
-             inputs)
+            stages.show("writing the HTML report")
+            emit(args.html, plan_html(plan, network, layout_path=args.layout,
+                                      version=__version__), inputs)
     if not to_stdout and not args.quiet:
         from beamplan.report.terminal import plan_renderable
 

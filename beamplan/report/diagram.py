@@ -320,7 +320,8 @@ def diagram_model(network: Network, plan: Plan | None = None, *,
     key_of = {m: key for key, ms in members.items() for m in ms}
     binds: dict[str, list[str]] = {}
     for b in plan.binding if plan else ():
-        binds.setdefault(key_of[b.subject], []).append(BINDS.get(b.family, b.family))
+        if b.subject in key_of:  # a --focus view holds only part of the network
+            binds.setdefault(key_of[b.subject], []).append(BINDS.get(b.family, b.family))
     boxes = {k: _box(network, plan, ms, tuple(dict.fromkeys(binds.get(k, []))))
              for k, ms in members.items()}
     boxes = {k: replace(b, lines=(*b.lines, "binds: " + ", ".join(b.binds))) if b.binds else b

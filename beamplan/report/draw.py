@@ -41,7 +41,8 @@ def _canvas(width: float, height: float) -> tuple[Any, Any]:
 
 
 
-_STYLES = {"element": "square,pad=0", "chain": "square,pad=0", "source": "rarrow,pad=0",
+_STYLES = {"element": "square,pad=0", "chain": "square,pad=0", "fold": "square,pad=0",
+           "source": "rarrow,pad=0",
            "dump": "sawtooth,pad=0,tooth_size=0.05", "scanner": "round,pad=0,rounding_size=0.07"}
 
 
@@ -63,6 +64,9 @@ def _draw_box(ax: Any, box: Box, x: float, y: float, width: float) -> None:
         ax.add_patch(FancyBboxPatch((x - width / 2 + 0.03, top + 0.03), width - 0.06, h - 0.06,
                                     "square,pad=0", fc="none", ec=PALETTE["ink"], lw=0.5,
                                     zorder=3))
+    if box.shape == "fold":  # a heavy left edge: many boxes stand behind this one
+        ax.plot([x - width / 2 + 0.025] * 2, [top, top + h], color=PALETTE["ink"], lw=3.5,
+                solid_capstyle="butt", zorder=3)
     colour = PALETTE["paper"] if box.fill == PALETTE["heat-4"] else PALETTE["ink"]
     for i, line in enumerate(box.lines):
         ax.text(x, top + 0.05 + LINE_IN * (i + 0.5), line, ha="center", va="center",
@@ -104,7 +108,8 @@ def _slots(d: Diagram) -> dict[tuple[int, str], float]:
     return out
 
 
-def _legend_items(d: Diagram) -> list[tuple[str, list[tuple[str, Any]]]]:
+def _legend_items(d: Diagram, flow: str = "left to right"
+                  ) -> list[tuple[str, list[tuple[str, Any]]]]:
     """The legend's groups of (words, mark): only the box marks the diagram shows."""
     planned, paper = d.planned, PALETTE["paper"]
     shapes = [
@@ -113,6 +118,7 @@ def _legend_items(d: Diagram) -> list[tuple[str, list[tuple[str, Any]]]]:
         ("element: id, kind, power in" if planned else "element: id, kind, gain",
          Box("", (), "element", (), PALETTE["heat-none"])),
         ("chain of gain elements", Box("", (), "chain", (), PALETTE["heat-none"])),
+        ("folded subtree: totals, worst case", Box("", (), "fold", (), PALETTE["heat-none"])),
         ("dump", Box("", (), "dump", (), PALETTE["dump"])),
         ("scanner: need met, headroom" if planned else "scanner: id, need",
          Box("", (), "scanner", (), PALETTE["met"])),
@@ -125,7 +131,7 @@ def _legend_items(d: Diagram) -> list[tuple[str, list[tuple[str, Any]]]]:
     marks: list[tuple[str, Any]] = [(words, box) for words, box in shapes if (
         ringed if box.binds else (box.shape, box.hatch) in shown)]
     if not planned:
-        return [("Beam, left to right", [("a link (no plan, so no powers)", 1.2)]),
+        return [(f"Beam, {flow}", [("a link (no plan, so no powers)", 1.2)]),
                 ("Boxes", marks)]
     top = d.max_power_w
     beams: list[tuple[str, Any]] = [
@@ -135,14 +141,15 @@ def _legend_items(d: Diagram) -> list[tuple[str, list[tuple[str, Any]]]]:
         ("carries no power", 0.0)]
     heat = [("no heat limit", PALETTE["heat-none"]),
             *((words, PALETTE[key]) for key, words, _ in HEAT_BANDS)]
-    return [("Beam, left to right; width ∝ power", beams),
+    return [(f"Beam, {flow}; width ∝ power", beams),
             ("Heat: absorbed ÷ heat limit", heat), ("Boxes", marks)]
 
 
-def _draw_legend(ax: Any, d: Diagram, x0: float, y0: float) -> None:
+def _draw_legend(ax: Any, d: Diagram, x0: float, y0: float, flow: str = "left to right",
+                 note: str = "") -> None:
     from matplotlib.patches import FancyBboxPatch
 
-    groups = _legend_items(d)
+    groups = _legend_items(d, flow)
     for g, (title, items) in enumerate(groups):
         x = x0 + g * 2.9
         ax.text(x, y0, title, fontsize=FONT_PT + 0.5, fontweight="bold", va="top")
@@ -159,9 +166,9 @@ def _draw_legend(ax: Any, d: Diagram, x0: float, y0: float) -> None:
                         color=PALETTE["idle"] if mark == 0 else PALETTE["beam"])
             ax.text(x + 0.58, y, words, fontsize=FONT_PT, va="center")
     if d.planned:
-        ax.text(x0, y0 + _legend_height(d) - 0.12, "Link labels: output port; power · share "
-                "of the source output. Box text: power in, heat use, setting, what binds.",
-                fontsize=FONT_PT)
+        ax.text(x0, y0 + _legend_height(d) - 0.12, note or "Link labels: output port; power "
+                "· share of the source output. Box text: power in, heat use, setting, what "
+                "binds.", fontsize=FONT_PT)
 
 
 def _legend_height(d: Diagram) -> float:

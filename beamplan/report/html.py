@@ -61,6 +61,8 @@ dl.facts dd { margin: 0; overflow-wrap: anywhere; }
 .scroll svg { display: block; max-width: none; height: auto; }
 figure { margin: 1rem 0; }
 figure.plot svg { display: block; width: min(100%, 52rem); height: auto; }
+figure.fit svg { display: block; width: min(100%, 60rem); height: auto; }
+.scroll table { margin: 0; }
 figcaption { font-size: .9rem; margin-top: .3rem; }
 code { font-family: ui-monospace, monospace; overflow-wrap: anywhere; }
 nav ol { columns: 3; font-size: .9rem; }
@@ -238,7 +240,8 @@ def page(title: str, heading: str, status: str, sections: Sequence[tuple[str, st
 
 
 def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
-              date: datetime.date | str | None = None, group_chains: bool = False) -> str:
+              date: datetime.date | str | None = None, group_chains: bool = False,
+              detail: bool | None = None) -> str:
     """The whole plan report as the text of one self-contained HTML file.
 
     Parameters
@@ -253,6 +256,9 @@ def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
         The date of the report (default: today), so that tests can fix it.
     group_chains
         Draw chains of plain gain elements as one box in the diagram.
+    detail
+        Draw every box (``True``) or the summary with subtrees folded
+        (``False``); by default the summary past ``SCALE_SCANNERS`` scanners.
 
     Examples
     --------
@@ -281,8 +287,12 @@ def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
         summary.append(("wall plug", f"{plan.electrical_per_delivered:.0f} kW electrical per "
                                      "kW delivered at the IF"))
     settings = [e for e in plan.elements if e.setting is not None]
-    diagram = inline_svg(diagram_picture(network, plan, group_chains=group_chains), "diagram",
-                         f"power-flow diagram of {plan.layout}")
+    from beamplan.report.summary_diagram import SCALE_SCANNERS, at_scale, summary_picture
+
+    folded = at_scale(network) if detail is None else not detail
+    picture = summary_picture(network, plan) if folded else \
+        diagram_picture(network, plan, group_chains=group_chains)
+    diagram = inline_svg(picture, "diagram", f"power-flow diagram of {plan.layout}")
     plots = {"headroom": inline_svg(headroom_chart(plan), "headroom", "headroom per scanner"),
              "kind": inline_svg(losses_chart(plan), "kind", "losses by element kind"),
              "element": inline_svg(losses_chart(plan, by="element"), "element",
@@ -295,11 +305,16 @@ def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
         "scanners": _scanners(plan) + "\n" + figure(
             plots["headroom"], "Delivered power (bars) against each need (tick) and "
             "max_power (diamond). Hatched bars fall short.", "plot"),
-        "diagram": figure(f'<div class="scroll">\n{diagram}\n</div>',
-                          "Beam from left to right; line width is proportional to power. The "
-                          "legend below the diagram explains every mark. The diagram keeps "
-                          "its text size: scroll sideways for the rest; a print fits it to "
-                          "the page width.", "diagram"),
+        "diagram": figure(diagram, f"A summary of more than {SCALE_SCANNERS} scanners: "
+                          "beam from top to bottom, each subtree of several scanners folded "
+                          "into one box with its totals; line width is proportional to power. "
+                          "'beamplan draw --detail' or '--focus ID' draws every box.", "fit")
+        if folded else
+        figure(f'<div class="scroll">\n{diagram}\n</div>',
+               "Beam from left to right; line width is proportional to power. The "
+               "legend below the diagram explains every mark. The diagram keeps "
+               "its text size: scroll sideways for the rest; a print fits it to "
+               "the page width.", "diagram"),
         "elements": _elements(plan),
         "settings": table("Settings chosen by the plan", ["element", "kind", "setting"],
                           [[e.id, e.kind, _setting(e)] for e in settings])

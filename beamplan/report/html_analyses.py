@@ -104,8 +104,9 @@ def _cases_table(comparison: Comparison) -> str:
                      *([f"{c.best_factor:.4f}" if c.best_factor is not None else "-"]
                        if steady else []), _short(p), c.note])
     numeric = (2, 3, 4, 5, 6, 7, *((8,) if steady else ()))
-    return table(f"The base layout and every case (goal {comparison.goal})", header, rows,
-                 numeric)
+    listed = table(f"The base layout and every case (goal {comparison.goal})", header, rows,
+                   numeric)
+    return f'<div class="scroll">\n{listed}\n</div>'
 
 
 def _scanner_cell(s: ScannerResult | None, base: ScannerResult | None, *,
