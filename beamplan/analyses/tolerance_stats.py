@@ -40,7 +40,9 @@ def wilson(successes: int, n: int, z: float = Z95) -> tuple[float, float]:
     z2 = z * z
     centre = (p + z2 / (2 * n)) / (1 + z2 / n)
     half = z / (1 + z2 / n) * math.sqrt(p * (1 - p) / n + z2 / (4 * n * n))
-    return max(centre - half, 0.0), min(centre + half, 1.0)
+    low = 0.0 if successes == 0 else max(centre - half, 0.0)
+    high = 1.0 if successes == n else min(centre + half, 1.0)
+    return low, high
 
 
 def samples_for_width(p: float, width: float, z: float = Z95) -> int:
