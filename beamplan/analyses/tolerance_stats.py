@@ -147,8 +147,9 @@ def sobol_indices(labels: Sequence[str], evaluate: Callable[[np.ndarray], np.nda
             col = y[:, k]
             if not np.all(np.isfinite(col)) or np.ptp(col) == 0.0:
                 continue
+            # SALib treats a seed of 0 as no seed (global state): never pass 0.
             res = analyze.analyze(problem, col, calc_second_order=False,  # type: ignore
-                                  print_to_console=False, seed=seed)
+                                  print_to_console=False, seed=seed + 1)
             first[k], total[k] = res["S1"], res["ST"]
             first_conf[k], total_conf[k] = res["S1_conf"], res["ST_conf"]
     return SobolIndices(tuple(groups), first, total, first_conf, total_conf, base_samples)

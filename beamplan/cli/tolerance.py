@@ -59,6 +59,8 @@ def _tolerance(args: argparse.Namespace) -> int:
         raise UsageError(f"--sensitivity {base}: give a power of two (Sobol' sampling)")
     if samples < 1:
         raise UsageError("--samples must be at least 1")
+    if args.seed < 0:
+        raise UsageError("--seed must be zero or positive")
     executor = None
     if args.jobs > 1:
         import multiprocessing

@@ -158,7 +158,7 @@ def _item(ctx: Context, data: Any, path: Path, groups: dict[str, Group]) -> Tole
     r = MapReader(ctx, data, {k: (*path, k) for k in data}, label, path)
     if len(given) != 1:
         what = "no target" if not given else f"{len(given)} targets ({', '.join(given)})"
-        ctx.error("bad-target", f"{label}: {what}", ctx.positions.key(path),
+        ctx.error("bad-target", f"{label}: {what}", ctx.positions.value(path),
                   f"give exactly one of {', '.join(TARGETS)}")
         for key in given:
             r.raw(key)
@@ -182,7 +182,7 @@ def _item(ctx: Context, data: Any, path: Path, groups: dict[str, Group]) -> Tole
     bounds = _bounds(r, dimension or "fraction")
     if distribution == "truncnormal" and bounds is None and r.has("spread"):
         ctx.error("missing-key", f"{r.subject}: a truncated normal needs 'bounds'",
-                  ctx.positions.key(path), "add e.g. 'bounds: [0.90, 0.95]' (absolute values)")
+                  ctx.positions.value(path), "add e.g. 'bounds: [0.90, 0.95]' (absolute values)")
     elif bounds is not None and distribution != "truncnormal":
         r._bad("bounds", "'bounds' apply to 'distribution: truncnormal' only",
                "remove 'bounds' or write 'distribution: truncnormal'")
@@ -196,7 +196,7 @@ def _item(ctx: Context, data: Any, path: Path, groups: dict[str, Group]) -> Tole
     if spread is None or not target or not prop or dimension is None:
         return None
     return Tolerance(name, kind, target, prop, spread[0], spread[1], distribution, port,
-                     bounds, group, ctx.positions.key(path))
+                     bounds, group, ctx.positions.value(path))
 
 
 def _groups(ctx: Context, r: MapReader) -> dict[str, Group]:
