@@ -101,6 +101,7 @@ def test_zero_tolerance_gives_exactly_the_plan() -> None:
     assert (factors == np.array(expected)).all()  # exactly: every factor is 1.0
     retuned, best = RetuneModel(network, model).evaluate(model.factors(u[:4]))
     assert best == pytest.approx(plan.headroom_factor, rel=1e-7)  # the goal's first stage
+    assert (retuned == best[:, None]).all()  # every need met: each scanner reports t*
 
 
 def test_retuned_never_below_fixed_on_the_same_samples() -> None:

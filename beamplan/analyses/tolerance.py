@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from beamplan.analyses.tolerance_fixed import FixedPaths, fixed_paths
+from beamplan.analyses.tolerance_fixed import FixedPaths, fixed_paths, log_factors
 from beamplan.analyses.tolerance_model import ToleranceModel
 from beamplan.analyses.tolerance_stats import SobolIndices, sobol_indices
 from beamplan.network.graph import Network
@@ -53,8 +53,13 @@ class Tally:
                      self.overheated + other.overheated)
 
 
+_STEP = 0.001
+
+
 def _histogram(values: np.ndarray) -> np.ndarray:
-    bins = np.clip(np.searchsorted(EDGES, values, side="right") - 1, 0, len(EDGES) - 2)
+    # EDGES are evenly spaced: the bin is floor(value / step); outside [0, 4] the end bins.
+    scaled = np.nan_to_num(values / _STEP, nan=0.0, posinf=len(EDGES), neginf=0.0)
+    bins = np.clip(scaled, 0, len(EDGES) - 2).astype(np.int64)
     return np.bincount(bins, minlength=len(EDGES) - 1)
 
 
@@ -136,10 +141,11 @@ def _evaluator(job: _Job) -> Evaluator:
         if job.mode == "fixed":
             paths: FixedPaths = fixed_paths(job.network, job.plan, job.model)
             def fixed(cols: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-                factors = paths.factors(cols)
+                logs = log_factors(cols)
+                factors = paths.factors(cols, logs)
                 low = factors.min(axis=1) if factors.shape[1] else np.ones(len(cols))
                 # A heat limit exceeded fails the fab-wide check (a re-plan obeys it).
-                return factors, low, paths.overheated(cols)
+                return factors, low, paths.overheated(cols, logs)
 
             _EVALUATORS[key] = fixed
         else:

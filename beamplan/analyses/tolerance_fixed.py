@@ -41,22 +41,48 @@ class FixedPaths:
     count: np.ndarray
     to_scanner: np.ndarray
     need_column: np.ndarray  # per scanner: its need's factor column, or -1
-    heat: tuple[tuple[str, float, int, float, np.ndarray, np.ndarray], ...] = ()
-    # per heat-limited plain optic: id, nominal gain, gain column, limit W, its incident
-    # paths' planned powers and their (columns × paths) counts
+    heat_count: np.ndarray | None = None  # (columns × incident paths of heat-limited optics)
+    heat_p0_w: np.ndarray | None = None  # planned power of each of those paths
+    heat_owner: np.ndarray | None = None  # which optic each path feeds
+    heat_gain: np.ndarray | None = None  # per heat-limited plain optic: nominal gain
+    heat_column: np.ndarray | None = None  # its gain's factor column, or -1
+    heat_limit_w: np.ndarray | None = None
 
-    def overheated(self, columns: np.ndarray) -> np.ndarray:
+    def overheated(self, columns: np.ndarray, logs: np.ndarray | None = None) -> np.ndarray:
         """Whether any heat-limited plain optic absorbs more than its limit, per sample."""
-        out = np.zeros(columns.shape[0], dtype=bool)
-        with np.errstate(divide="ignore"):
-            logs = np.log(columns)
-        for _, gain, col, limit, p0, count in self.heat:
-            incident = (np.exp(logs @ count) * p0).sum(axis=1) if p0.size else 0.0
-            g = gain * (columns[:, col] if col >= 0 else 1.0)
-            out |= incident * (1.0 - g) > limit * (1.0 + 1e-6)
-        return out
+        n = columns.shape[0]
+        if self.heat_limit_w is None or not len(self.heat_limit_w):
+            return np.zeros(n, dtype=bool)
+        assert self.heat_count is not None and self.heat_p0_w is not None
+        assert self.heat_owner is not None and self.heat_gain is not None
+        assert self.heat_column is not None
+        logs = log_factors(columns) if logs is None else logs
+        # A bound first, from each column's largest and smallest factor in this chunk:
+        # only optics that might exceed their limit are evaluated sample by sample.
+        used = np.nonzero(self.heat_count.any(axis=1))[0]
+        high = np.exp(logs.max(axis=0)[used] @ self.heat_count[used]) * self.heat_p0_w
+        incident_ub = np.bincount(self.heat_owner, high, minlength=len(self.heat_limit_w))
+        low_gain = self.heat_gain * np.where(self.heat_column >= 0, np.exp(logs.min(axis=0)[
+            np.maximum(self.heat_column, 0)]) if logs.shape[1] else 1.0, 1.0)
+        maybe = np.nonzero(incident_ub * (1.0 - low_gain) > self.heat_limit_w)[0]
+        if not len(maybe):
+            return np.zeros(n, dtype=bool)
+        keep = np.isin(self.heat_owner, maybe)
+        owner = np.searchsorted(maybe, self.heat_owner[keep])
+        per_path = np.exp(logs[:, used] @ self.heat_count[used][:, keep]) * \
+            self.heat_p0_w[keep]
+        indicator = np.zeros((len(owner), len(maybe)))
+        indicator[np.arange(len(owner)), owner] = 1.0
+        incident = per_path @ indicator
+        gain = np.broadcast_to(self.heat_gain[maybe], incident.shape).copy()
+        cols = self.heat_column[maybe]
+        has = cols >= 0
+        gain[:, has] *= columns[:, cols[has]]
+        hot: np.ndarray = (incident * (1.0 - gain) >
+                           self.heat_limit_w[maybe] * (1.0 + 1e-6)).any(axis=1)
+        return hot
 
-    def factors(self, columns: np.ndarray) -> np.ndarray:
+    def factors(self, columns: np.ndarray, logs: np.ndarray | None = None) -> np.ndarray:
         """Delivered ÷ need per sample and scanner (n × scanners) from factor columns.
 
         Examples
@@ -67,9 +93,10 @@ class FixedPaths:
         [0.6, 1.2]
         """
         n = columns.shape[0]
-        with np.errstate(divide="ignore"):
-            logs = np.log(columns)
-        exponent = logs @ self.count if self.count.size else np.zeros((n, len(self.p0_w)))
+        logs = log_factors(columns) if logs is None else logs
+        used = np.nonzero(self.count.any(axis=1))[0]  # columns on some path (not the needs)
+        exponent = logs[:, used] @ self.count[used] if len(used) else \
+            np.zeros((n, len(self.p0_w)))
         per_path = np.exp(exponent) * self.p0_w
         if len(self.to_scanner) == len(self.scanners) and \
                 np.array_equal(self.to_scanner, np.arange(len(self.scanners))):
@@ -87,10 +114,22 @@ class FixedPaths:
         return out
 
 
-def _link_knobs(network: Network, plan: Plan, tail: str, port: str | None
+def log_factors(columns: np.ndarray) -> np.ndarray:
+    """Natural logarithms of factor columns; a factor of 0 gives -745 (exp gives 0 back).
+
+    Examples
+    --------
+    >>> log_factors(np.array([[1.0, 0.0]])).tolist()
+    [[0.0, -745.0]]
+    """
+    with np.errstate(divide="ignore"):
+        out: np.ndarray = np.maximum(np.log(columns), -745.0)
+    return out
+
+
+def _link_knobs(network: Network, settings: dict[str, Any], tail: str, port: str | None
                 ) -> tuple[float, list[Knob]]:
     node = network.node[tail]
-    settings = {e.id: e.setting for e in plan.elements}
     if node.behaviour in (Behaviour.GAIN, Behaviour.COMBINE):
         return node.gain_max, [Knob(tail, "gain")]
     if node.behaviour is Behaviour.RANGE:
@@ -124,6 +163,7 @@ def fixed_paths(network: Network, plan: Plan, model: ToleranceModel) -> FixedPat
     True
     """
     outputs = {s.id: s.output_w for s in plan.sources}
+    settings: dict[str, Any] = {e.id: e.setting for e in plan.elements}
     memo: dict[str, list[tuple[float, list[Knob]]]] = {}
 
     def into(node_id: str) -> list[tuple[float, list[Knob]]]:
@@ -140,7 +180,7 @@ def fixed_paths(network: Network, plan: Plan, model: ToleranceModel) -> FixedPat
             if network.node[link.tail].is_source:
                 out.extend(p for p in into(link.tail) if p[0] > 0.0)
                 continue
-            gain, knobs = _link_knobs(network, plan, link.tail, link.port)
+            gain, knobs = _link_knobs(network, settings, link.tail, link.port)
             out.extend((power * gain, [*path_knobs, *knobs])
                        for power, path_knobs in into(link.tail) if power * gain > 0.0)
         memo[node_id] = out
@@ -165,21 +205,26 @@ def fixed_paths(network: Network, plan: Plan, model: ToleranceModel) -> FixedPat
             owners.append(j)
             rows.append(row)
     count = np.array(rows).T if rows else np.zeros((ncols, 0))
-    heat = []
-    for node in network.elements:
-        if node.heat_limit_w is None or node.behaviour not in (Behaviour.GAIN,
-                                                                Behaviour.COMBINE):
-            continue
-        paths = into(node.id)
-        hcount = np.zeros((ncols, len(paths)))
-        for i, (_, knobs) in enumerate(paths):
+    heat_ids = [n for n in network.elements if n.heat_limit_w is not None and
+                n.behaviour in (Behaviour.GAIN, Behaviour.COMBINE)]
+    heat_rows, heat_p0, heat_owner = [], [], []
+    for h, node in enumerate(heat_ids):
+        for power, knobs in into(node.id):
+            row = np.zeros(ncols)
             for k in knobs:
                 if k in column:
-                    hcount[column[k], i] += 1.0
-        heat.append((node.id, node.gain_max, column.get(Knob(node.id, "gain"), -1),
-                     node.heat_limit_w, np.array([p for p, _ in paths]), hcount))
+                    row[column[k]] += 1.0
+            heat_rows.append(row)
+            heat_p0.append(power)
+            heat_owner.append(h)
     need_column = np.array([column.get(Knob(s.id, "need"), -1) for s in scanners], dtype=int)
     return FixedPaths(tuple(s.id for s in scanners), np.array([s.need_w for s in scanners]),
                       np.array(p0), count.reshape(ncols, len(p0)), np.array(owners, dtype=int),
-                      need_column, tuple(heat))
+                      need_column,
+                      np.array(heat_rows).T.reshape(ncols, len(heat_p0)), np.array(heat_p0),
+                      np.array(heat_owner, dtype=int),
+                      np.array([n.gain_max for n in heat_ids]),
+                      np.array([column.get(Knob(n.id, "gain"), -1) for n in heat_ids],
+                               dtype=int),
+                      np.array([n.heat_limit_w for n in heat_ids], dtype=float))
 
