@@ -22,7 +22,7 @@ from beamplan.network.graph import build_network
 from beamplan.optimise.planner import plan_network
 
 TWO_BAY = "layouts/two-bay.yaml"
-TWO_BAY_TOL = "layouts/two-bay.tolerances.yaml"
+TWO_BAY_TOL = "layouts/tolerances/two-bay.yaml"
 
 # A single chain: 1 kW through three mirrors to one scanner that needs 640 W.
 CHAIN = """\

@@ -10,7 +10,7 @@ import pytest
 from beamplan.cli.main import main
 
 TWO_BAY = "layouts/two-bay.yaml"
-TWO_BAY_TOL = "layouts/two-bay.tolerances.yaml"
+TWO_BAY_TOL = "layouts/tolerances/two-bay.yaml"
 FAST = ["-n", "3000", "--sensitivity", "64"]
 
 

@@ -221,7 +221,7 @@ def run_tolerance(network: Network, plan: Plan, model: ToleranceModel, *, sample
     >>> lay = load_layout("layouts/two-bay.yaml")
     >>> net = build_network(lay)
     >>> plan = plan_network(net)
-    >>> model = build_model(load_tolerances("layouts/two-bay.tolerances.yaml"), lay, net, plan)
+    >>> model = build_model(load_tolerances("layouts/tolerances/two-bay.yaml"), lay, net, plan)
     >>> run = run_tolerance(net, plan, model, samples=2000, sensitivity_samples=0)
     >>> run.tally.samples, 0 <= run.tally.all_met <= 2000
     (2000, True)

@@ -311,7 +311,7 @@ def build_model(tolerances: ToleranceSet, layout: Layout, network: Network,
     >>> from beamplan.layout.tolerances import load_tolerances
     >>> from beamplan.network.graph import build_network
     >>> lay = load_layout("layouts/two-bay.yaml")
-    >>> model = build_model(load_tolerances("layouts/two-bay.tolerances.yaml"), lay,
+    >>> model = build_model(load_tolerances("layouts/tolerances/two-bay.yaml"), lay,
     ...                     build_network(lay))
     >>> model.dimensions > 0
     True

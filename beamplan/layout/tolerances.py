@@ -279,7 +279,7 @@ def load_tolerances(path: str) -> ToleranceSet:
 
     Examples
     --------
-    >>> tols = load_tolerances("layouts/two-bay.tolerances.yaml")
+    >>> tols = load_tolerances("layouts/tolerances/two-bay.yaml")
     >>> len(tols.tolerances) > 3
     True
     """
