@@ -11,7 +11,7 @@ from scipy import stats
 
 from beamplan.analyses.tolerance import run_tolerance, uniforms
 from beamplan.analyses.tolerance_fixed import fixed_paths
-from beamplan.analyses.tolerance_model import build_model
+from beamplan.analyses.tolerance_model import Knob, build_model
 from beamplan.analyses.tolerance_retune import RetuneModel
 from beamplan.analyses.tolerance_stats import samples_for_width, sobol_indices, wilson
 from beamplan.analyses.tolerance_summary import summarise
@@ -165,3 +165,49 @@ def test_interrupted_run_is_partial() -> None:
     run = run_tolerance(network, plan, model, samples=30000, progress=stop)
     assert run.interrupted and run.tally.samples == 8192 and summarise(run).partial
     assert run.sensitivity is None
+
+
+def test_live_edits_equal_a_rebuilt_lp() -> None:
+    # Independent reference: the LP built afresh (optimise/lp.py) from a network whose
+    # nodes carry the perturbed gains, efficiencies, bounds, powers and needs.
+    from dataclasses import replace
+
+    from beamplan.optimise.lp import build_lp
+
+    layout = load_layout(TWO_BAY)
+    network = build_network(layout)
+    plan = plan_network(network)
+    model = build_model(load_tolerances(TWO_BAY_TOL), layout, network, plan)
+    cols = model.factors(uniforms("random", model.dimensions, 0, 1, seed=5))
+    f = {k: float(cols[0, model.knob_column[i]]) for i, k in enumerate(model.knobs)}
+    changed = {}
+    for node in network.nodes:
+        g = f.get(Knob(node.id, "gain"), f.get(Knob(node.id, "setting"), 1.0))
+        ports = tuple(replace(p, efficiency=p.efficiency * f.get(
+            Knob(node.id, "efficiency", p.name), 1.0),
+            fraction_min=p.fraction_min * f.get(Knob(node.id, "fraction", p.name), 1.0),
+            fraction_max=p.fraction_max * f.get(Knob(node.id, "fraction", p.name), 1.0))
+            for p in node.ports)
+        changed[node.id] = replace(node, gain_min=node.gain_min * g, gain_max=node.gain_max * g,
+                                   ports=ports, available_w=node.available_w * f.get(
+                                       Knob(node.id, "power"), 1.0),
+                                   need_w=node.need_w * f.get(Knob(node.id, "need"), 1.0))
+    rebuilt = build_lp(network.with_nodes(changed))
+    live = RetuneModel(network, model)
+    nominal = live.live.model
+    values = live.values(cols)[0]
+    listed = {}
+    for e, entry in enumerate(live.entries):
+        listed[(entry.row, entry.col)] = values[e]
+    moved = 0
+    for r, row in enumerate(rebuilt.rows):
+        for c, var in enumerate(rebuilt.columns):
+            if c == rebuilt.factor_col or var not in row.expr:
+                continue
+            new = row.expr[var]
+            if (r, c) in listed:
+                assert listed[(r, c)] == pytest.approx(new, rel=1e-12, abs=1e-15)
+                moved += 1
+            else:  # not edited: must not have changed
+                assert nominal.rows[r].expr[nominal.columns[c]] == pytest.approx(new, rel=1e-12)
+    assert moved > 50

@@ -98,3 +98,24 @@ def test_broken_tolerance_files_get_located_errors(
 def test_no_tolerances_is_a_usage_error(capsys: pytest.CaptureFixture[str]) -> None:
     assert main(["tolerance", TWO_BAY]) == 2
     assert "no tolerances" in capsys.readouterr().err
+
+
+def test_ctrl_c_gives_a_partial_report_and_exit_130(
+        monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]) -> None:
+    import beamplan.analyses.tolerance as tol
+
+    real = tol.run_chunk
+    calls: list[int] = []
+
+    def interrupted(*args: object) -> object:
+        calls.append(1)
+        if len(calls) > 1:
+            raise KeyboardInterrupt
+        return real(*args)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(tol, "run_chunk", interrupted)
+    assert main(["tolerance", TWO_BAY, TWO_BAY_TOL, "-n", "30000", "--json", "-"]) == 130
+    captured = capsys.readouterr()
+    doc = json.loads(captured.out)
+    assert doc["partial"] and doc["samples"] == 8192 and doc["requested"] == 30000
+    assert "interrupted after 8192 of 30000 samples" in captured.err
