@@ -211,3 +211,30 @@ def test_live_edits_equal_a_rebuilt_lp() -> None:
             else:  # not edited: must not have changed
                 assert nominal.rows[r].expr[nominal.columns[c]] == pytest.approx(new, rel=1e-12)
     assert moved > 50
+
+
+def test_a_share_tolerance_conserves_power_in_fixed_mode() -> None:
+    # Hand calculation: a lossless splitter passes its whole input whatever the realised
+    # share of one output; the other output takes the rest.
+    text = """\
+layout: split
+format: 1
+sources: {src: {power: 1 kW}}
+elements:
+  sp: {kind: splitter, outputs: {a: {fraction: [0.3, 0.7]}, b: {}}}
+scanners: {sa: {power: 300 W}, sb: {power: 500 W}}
+beamlines: ["src -> sp", "sp.a -> sa", "sp.b -> sb"]
+tolerances:
+  items:
+    - {element: sp, property: fraction, port: a, spread: 5%}
+"""
+    doc = parse_yaml(text, "split.yaml")
+    layout = parse_layout(doc)
+    network = build_network(layout)
+    plan = plan_network(network)
+    model = build_model(parse_tolerances(doc, in_layout=True), layout, network, plan)
+    cols = model.factors(uniforms("random", model.dimensions, 0, 1000, seed=2))
+    factors = fixed_paths(network, plan, model).factors(cols)
+    total = factors[:, 0] * 300 + factors[:, 1] * 500
+    assert total == pytest.approx(plan.source_used_w, rel=1e-12)
+    assert factors[:, 0].std() > 0.01  # the share does move

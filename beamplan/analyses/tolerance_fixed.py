@@ -41,12 +41,21 @@ class FixedPaths:
     count: np.ndarray
     to_scanner: np.ndarray
     need_column: np.ndarray  # per scanner: its need's factor column, or -1
+    complements: tuple[tuple[int, float], ...] = ()  # derived columns: (fraction column, share)
     heat_count: np.ndarray | None = None  # (columns × incident paths of heat-limited optics)
     heat_p0_w: np.ndarray | None = None  # planned power of each of those paths
     heat_owner: np.ndarray | None = None  # which optic each path feeds
     heat_gain: np.ndarray | None = None  # per heat-limited plain optic: nominal gain
     heat_column: np.ndarray | None = None  # its gain's factor column, or -1
     heat_limit_w: np.ndarray | None = None
+
+    def extended(self, columns: np.ndarray, logs: np.ndarray) -> np.ndarray:
+        """The log-factors with the derived complement columns appended."""
+        if not self.complements or logs.shape[1] > columns.shape[1]:
+            return logs
+        extra = [np.log(np.maximum(1.0 - s * columns[:, c], 1e-300) / (1.0 - s))
+                 for c, s in self.complements]
+        return np.column_stack([logs, *extra])
 
     def overheated(self, columns: np.ndarray, logs: np.ndarray | None = None) -> np.ndarray:
         """Whether any heat-limited plain optic absorbs more than its limit, per sample."""
@@ -56,7 +65,7 @@ class FixedPaths:
         assert self.heat_count is not None and self.heat_p0_w is not None
         assert self.heat_owner is not None and self.heat_gain is not None
         assert self.heat_column is not None
-        logs = log_factors(columns) if logs is None else logs
+        logs = self.extended(columns, log_factors(columns) if logs is None else logs)
         # A bound first, from each column's largest and smallest factor in this chunk:
         # only optics that might exceed their limit are evaluated sample by sample.
         used = np.nonzero(self.heat_count.any(axis=1))[0]
@@ -93,7 +102,7 @@ class FixedPaths:
         [0.6, 1.2]
         """
         n = columns.shape[0]
-        logs = log_factors(columns) if logs is None else logs
+        logs = self.extended(columns, log_factors(columns) if logs is None else logs)
         used = np.nonzero(self.count.any(axis=1))[0]  # columns on some path (not the needs)
         exponent = logs[:, used] @ self.count[used] if len(used) else \
             np.zeros((n, len(self.p0_w)))
@@ -139,8 +148,9 @@ def _link_knobs(network: Network, settings: dict[str, Any], tail: str, port: str
     if node.behaviour is Behaviour.SPLIT:
         shares: dict[Any, float] = dict(settings.get(tail) or ())  # type: ignore
         eff = next(p.efficiency for p in node.ports if p.name == port)
+        others = [Knob(tail, "complement", p.name) for p in node.ports if p.name != port]
         return float(shares.get(port, 0.0)) * eff, [Knob(tail, "efficiency", port),
-                                                    Knob(tail, "fraction", port)]
+                                                    Knob(tail, "fraction", port), *others]
     return 0.0, []
 
 
@@ -187,7 +197,15 @@ def fixed_paths(network: Network, plan: Plan, model: ToleranceModel) -> FixedPat
         return out
 
     column = {k: model.knob_column[i] for i, k in enumerate(model.knobs)}
-    ncols = len(model.columns)
+    # When one output's realised share moves (a fraction tolerance), the other outputs
+    # share the rest in proportion: a derived column (1 - s f) / (1 - s) on their paths.
+    complements: list[tuple[int, float]] = []
+    for i, k in enumerate(model.knobs):
+        share = model.variables[i].nominal
+        if k.quantity == "fraction" and 0.0 < share < 1.0:
+            column[Knob(k.node, "complement", k.port)] = len(model.columns) + len(complements)
+            complements.append((model.knob_column[i], share))
+    ncols = len(model.columns) + len(complements)
     scanners = [s for s in plan.scanners if s.status != "out of service"]
     p0: list[float] = []
     owners: list[int] = []
@@ -220,7 +238,7 @@ def fixed_paths(network: Network, plan: Plan, model: ToleranceModel) -> FixedPat
     need_column = np.array([column.get(Knob(s.id, "need"), -1) for s in scanners], dtype=int)
     return FixedPaths(tuple(s.id for s in scanners), np.array([s.need_w for s in scanners]),
                       np.array(p0), count.reshape(ncols, len(p0)), np.array(owners, dtype=int),
-                      need_column,
+                      need_column, tuple(complements),
                       np.array(heat_rows).T.reshape(ncols, len(heat_p0)), np.array(heat_p0),
                       np.array(heat_owner, dtype=int),
                       np.array([n.gain_max for n in heat_ids]),
