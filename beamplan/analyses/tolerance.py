@@ -78,8 +78,13 @@ def tally(factors: np.ndarray, lowest: np.ndarray | None = None,
     n, s = factors.shape
     low = factors.min(axis=1) if lowest is None else lowest
     met = factors >= MEET
-    hist = np.stack([_histogram(factors[:, j]) for j in range(s)]) if s else \
-        np.zeros((0, len(EDGES) - 1), dtype=np.int64)
+    bins = len(EDGES) - 1
+    if s:  # every scanner's histogram in one count: bin + scanner × bins
+        scaled = np.nan_to_num(factors / _STEP, nan=0.0, posinf=bins, neginf=0.0)
+        index = np.clip(scaled, 0, bins - 1).astype(np.int64) + np.arange(s) * bins
+        hist = np.bincount(index.ravel(), minlength=s * bins).reshape(s, bins)
+    else:
+        hist = np.zeros((0, bins), dtype=np.int64)
     ok = low >= MEET if lowest is not None else met.all(axis=1)
     hot = np.zeros(n, dtype=bool) if overheated is None else overheated
     return Tally(n, met.sum(axis=0), int(np.count_nonzero(ok & ~hot)), hist, _histogram(low),

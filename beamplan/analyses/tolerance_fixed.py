@@ -106,20 +106,19 @@ class FixedPaths:
         used = np.nonzero(self.count.any(axis=1))[0]  # columns on some path (not the needs)
         exponent = logs[:, used] @ self.count[used] if len(used) else \
             np.zeros((n, len(self.p0_w)))
-        per_path = np.exp(exponent) * self.p0_w
+        per_path = np.exp(exponent)
+        per_path *= self.p0_w
         if len(self.to_scanner) == len(self.scanners) and \
                 np.array_equal(self.to_scanner, np.arange(len(self.scanners))):
             delivered = per_path
         else:
             delivered = np.zeros((n, len(self.scanners)))
             np.add.at(delivered.T, self.to_scanner, per_path.T)
-        need = np.broadcast_to(self.need_w, delivered.shape).copy()
-        has = self.need_column >= 0
-        if has.any():
-            need[:, has] *= columns[:, self.need_column[has]]
         with np.errstate(divide="ignore", invalid="ignore"):
-            out: np.ndarray = np.where(need > 0, delivered / np.where(need > 0, need, 1.0),
-                                       np.inf)
+            out: np.ndarray = delivered / self.need_w  # a need of 0 gives inf (always met)
+            has = self.need_column >= 0
+            if has.any():
+                out[:, has] /= columns[:, self.need_column[has]]
         return out
 
 
