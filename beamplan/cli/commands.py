@@ -162,8 +162,9 @@ def register(sub: Any) -> None:
     add_limits_option(plan)
     plan.set_defaults(handler=_plan)
 
-    from beamplan.cli import analyses, calc, draw
+    from beamplan.cli import analyses, calc, draw, tolerance
 
     analyses.register(sub)
     draw.register(sub)
     calc.register(sub)
+    tolerance.register(sub)

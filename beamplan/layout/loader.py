@@ -203,6 +203,7 @@ def parse_layout(doc: YamlDocument) -> Layout:
     profiles = _section(ctx, top, "profiles", False)
     scanners, used_profiles = read_scanners(ctx, _section(ctx, top, "scanners", True), profiles)
     links = _read_beamlines(ctx, top, doc.text.splitlines())
+    top.raw("tolerances")  # read by beamplan.layout.tolerances
     top.finish()
     for part in parts:
         if part not in used_parts:

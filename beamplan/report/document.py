@@ -36,7 +36,9 @@ SIGNIFICANT_DIGITS = 9
 
 _RATIO_KEYS = frozenset({"headroom", "headroom_factor", "headroom_lost", "best_headroom_factor",
                          "efficiency", "gain", "setting", "base", "case",
-                         "settings_stability"})
+                         "settings_stability", "probability", "low", "high", "first",
+                         "total", "first_conf", "total_conf", "headroom_q05", "headroom_q50",
+                         "headroom_q95", "planned_headroom", "interpolation_error"})
 _MAP_KEYS = frozenset({"setting"})  # {name: number} maps whose values share the key's kind
 
 
