@@ -142,3 +142,6 @@ def register(sub: Any) -> None:
     analyses.register(sub)
     draw.register(sub)
     calc.register(sub)
+    from beamplan.cli import cost
+
+    cost.register(sub)

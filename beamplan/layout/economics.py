@@ -294,7 +294,7 @@ def parse_economics(doc: YamlDocument, where: Path = ()) -> Economics:
     default_scanner, scanners = ScannerEconomics(), []
     for r in _entries(ctx, top, "scanners"):
         name = str(r.where[-1])
-        sr = _Reader(r, defaulted, f"scanners.{name}.")
+        sr = _Reader(r, defaulted if name == "default" else [], f"scanners.{name}.")
         base_s = default_scanner if name != "default" else ScannerEconomics()
         item = ScannerEconomics(sr.share("exposing", base_s.exposing),
                                 sr.number("wph", base_s.wph_at_need))

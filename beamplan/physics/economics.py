@@ -56,7 +56,7 @@ def annuity_factor(rate: float, years: float) -> float:
         raise ValueError(f"years must be positive and finite, got {years!r}")
     if rate == 0.0:
         return 1.0 / years
-    return rate / (1.0 - (1.0 + rate) ** -years)
+    return float(rate / (1.0 - (1.0 + rate) ** -years))
 
 
 def annual_capital(capital: float, rate: float, years: float) -> float:
