@@ -2,8 +2,8 @@
 
 Method: state enumeration of independent two-state repairable parts (R. Billinton,
 R. N. Allan, "Reliability Evaluation of Power Systems", 2nd ed., Plenum 1996):
-the state with nothing down, every single outage and the pairs whose probability
-reaches a threshold are planned by the outage sweep (:mod:`beamplan.analyses.outages`,
+the state with nothing down, every single outage and the states of two or more
+parts down whose probability reaches a threshold are planned by the outage sweep (:mod:`beamplan.analyses.outages`,
 the view after corrective switching); the expected loss is the sum over the states
 of probability × loss rate, the counterpart of the expected energy not served
 (EENS) of power-system studies. With a switching time ``t``, a state spends the
@@ -112,8 +112,9 @@ class AvailabilityReport:
     wafers_lost_at_failure: float
     euv_not_delivered_mwh: float
     ranking: tuple[Improvement, ...]
-    pairs_planned: int
+    multiples_planned: int
     interrupted: bool = False
+    wafers_lost_bound: float = 0.0  # + every state left out at the loss of every scanner
 
 
 def components_of(layout: Layout, network: Network, econ: Economics) -> tuple[Component, ...]:
@@ -134,33 +135,39 @@ def components_of(layout: Layout, network: Network, econ: Economics) -> tuple[Co
                  for r in (econ.reliability(n.id, n.kind, part_of.get(n.id)),))
 
 
-def enumerate_states(components: Sequence[Component], threshold: float
+def enumerate_states(components: Sequence[Component], threshold: float, max_order: int = 4
                      ) -> tuple[list[tuple[str, ...]], float]:
-    """The single outages and the pairs whose probability reaches ``threshold``.
+    """Every single outage, and the states of two or more parts down as likely as ``threshold``.
 
-    Returns the cases (singles, then pairs) and the probability of the states
-    left out (pairs below the threshold, three or more down).
+    A state is only extended while its probability stays at or above the
+    threshold (state enumeration with a probability cut, Billinton and Allan
+    1996), up to ``max_order`` parts down. Returns the cases (by order) and the
+    probability of the states left out.
 
     Examples
     --------
     >>> parts = [Component("a", "mirror", 90.0, 10.0), Component("b", "mirror", 90.0, 10.0)]
     >>> cases, left = enumerate_states(parts, 0.02)
-    >>> cases, round(left, 12)  # hand calculation: the pair 0.1 × 0.1 = 0.01 < 0.02
-    ([('a',), ('b',), ('a', 'b')], 0.0)
+    >>> cases, round(left, 12)  # hand calculation: the pair 0.81 × (0.1 / 0.9)² = 0.01 < 0.02
+    ([('a',), ('b',)], 0.01)
     """
     q = [c.q for c in components]
     none = math.prod(1.0 - x for x in q)
     odds = [x / (1.0 - x) for x in q]
     cases: list[tuple[str, ...]] = [(c.id,) for c in components]
     covered = none * (1.0 + sum(odds))
-    pairs = []
-    for i in range(len(components)):
-        for j in range(i + 1, len(components)):
-            p = none * odds[i] * odds[j]
-            if p >= threshold:
-                pairs.append((components[i].id, components[j].id))
-                covered += p
-    return cases + pairs, max(1.0 - covered, 0.0)
+    frontier = [((i,), none * odds[i]) for i in range(len(components))]
+    for _ in range(2, max_order + 1):
+        grown = []
+        for state, p in frontier:
+            for j in range(state[-1] + 1, len(components)):
+                pj = p * odds[j]
+                if pj >= threshold:
+                    grown.append(((*state, j), pj))
+        cases.extend(tuple(components[i].id for i in state) for state, _ in grown)
+        covered += sum(p for _, p in grown)
+        frontier = grown
+    return cases, max(1.0 - covered, 0.0)
 
 
 def _loss(view: OutageView, failed: tuple[str, ...], models: dict[str, Throughput],
@@ -278,7 +285,8 @@ def run_availability(layout: Layout, network: Network, econ: Economics, *,
     return AvailabilityReport(
         plan.layout, plan.file, econ, plan, components, tuple(states), truncated,
         tuple(scanners), total, sum(lost_at.values()), euv, tuple(ranking),
-        len(cases) - len(components), sweep.interrupted)
+        len(cases) - len(components), sweep.interrupted,
+        total + truncated * hours * sum(exposing[s.id] * s.wph for s in scanners))
 
 
 def plan_state(network: Network, failed: tuple[str, ...], models: dict[str, Throughput],

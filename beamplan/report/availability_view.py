@@ -33,7 +33,7 @@ def availability_document(report: AvailabilityReport, version: str,
                    "switching_time_h": e.switching_time_h, "improvement": e.improvement},
         "components": [{"id": c.id, "kind": c.kind, "mtbf_h": c.mtbf_h, "mttr_h": c.mttr_h,
                         "unavailability": c.q} for c in report.components],
-        "states": {"planned": len(report.states), "pairs": report.pairs_planned,
+        "states": {"planned": len(report.states), "multiple": report.multiples_planned,
                    "probability_left_out": report.truncated_probability,
                    "list": [{"failed": list(s.failed), "probability": s.probability,
                              "moves": list(s.moves),
@@ -48,6 +48,7 @@ def availability_document(report: AvailabilityReport, version: str,
                       "plasma_passes_lost_per_year": s.plasma_wafers_lost}
                      for s in report.scanners],
         "fab": {"passes_lost_per_year": report.wafers_lost,
+                "passes_lost_per_year_upper_bound": report.wafers_lost_bound,
                 "passes_lost_per_year_at_failure": report.wafers_lost_at_failure,
                 "euv_not_delivered_mwh_per_year": report.euv_not_delivered_mwh,
                 "plasma_passes_lost_per_year": sum(s.plasma_wafers_lost
@@ -109,8 +110,10 @@ def availability_renderable(report: AvailabilityReport, simulation: Simulation |
         f"{e.switching_time_h:g} h); {report.euv_not_delivered_mwh:,.2f} MWh of EUV not "
         f"delivered a year. One plasma source per scanner: {plasma:,.0f} passes a year.",
         f"States planned: {len(report.states)} (none, {len(report.components)} single, "
-        f"{report.pairs_planned} pairs of probability >= {e.threshold:g}); probability left "
-        f"out {report.truncated_probability:.2e} (counted as not at full power).",
+        f"{report.multiples_planned} of two or more parts down, each of probability >= "
+        f"{e.threshold:g}); probability left "
+        f"out {report.truncated_probability:.2e} (counted as not at full power; at most "
+        f"{report.wafers_lost_bound:,.0f} passes a year if every scanner lost all in them).",
         f"Method: {METHOD}.",
     ]
     if simulation is not None:

@@ -1,0 +1,136 @@
+"""Cost: annuity, energy arithmetic, break-even, trade facts, located input errors, CLI."""
+
+from __future__ import annotations
+
+import json
+import pathlib
+
+import pytest
+
+import beamplan
+from beamplan.analyses.cost import cost_of
+from beamplan.cli.main import main
+from beamplan.errors import LayoutError
+from beamplan.layout.economics import SHARED_W_PER_W, Economics, PlasmaOption, parse_economics
+from beamplan.layout.yamlpos import parse_yaml
+from beamplan.network.graph import build_network
+from beamplan.physics.economics import (
+    annual_capital,
+    annuity_factor,
+    break_even_count,
+    dose_for_throughput,
+    energy_mwh,
+)
+from beamplan.physics.scanner_tool import ScannerTool
+
+
+def test_annuity_by_hand() -> None:
+    # hand calculation: 0.1 / (1 - 1.1**-2) = 0.1 / (1 - 0.826446) = 0.576190
+    assert annuity_factor(0.10, 2) == pytest.approx(0.5761905, rel=1e-6)
+    # hand calculation: a 2-year loan of 1000 at 10 %: 576.19 a year repays it exactly
+    pay = annual_capital(1000.0, 0.10, 2)
+    assert (1000.0 * 1.1 - pay) * 1.1 - pay == pytest.approx(0.0, abs=1e-9)
+    assert annuity_factor(0.0, 4) == 0.25  # hand calculation: no interest, C / n
+    with pytest.raises(ValueError):
+        annuity_factor(0.05, 0.0)
+
+
+def test_energy_arithmetic_by_hand() -> None:
+    # hand calculation: 16.332797 MW × 8200 h = 133,928.94 MWh; × 95 per MWh = 12.72 million
+    assert energy_mwh(16.332797e6, 8200.0) == pytest.approx(133928.935, rel=1e-6)
+    net = build_network(beamplan.load("layouts/two-bay.yaml"))
+    econ = Economics(price_per_kwh=0.095, hours_per_year=8200.0)
+    report = cost_of(beamplan.plan(net), net, econ)
+    main_src = report.sources[0]
+    assert main_src.energy_mwh == pytest.approx(main_src.electrical_w * 8200 / 1e6)
+    assert main_src.electricity_per_year == pytest.approx(main_src.energy_mwh * 95.0)
+    # the scanners' shares add up to the fab
+    assert sum(s.total_per_year for s in report.scanners) == pytest.approx(report.total_per_year)
+    one = report.scanners[0]
+    # hand calculation: passes = wph × hours × exposing share
+    assert one.passes_per_year == pytest.approx(one.wph * 8200.0 * 0.8)
+
+
+def test_break_even_by_hand() -> None:
+    # hand calculation: shared 100 per year per source + 2 per scanner; plasma 12 per scanner:
+    # 100 + 2N <= 12N from N = 10 on
+    assert break_even_count(100.0, 1e4, 100.0, 2.0, 12.0) == 10
+    # with 1 kW per scanner a 10 kW source serves 10: at N = 10 one source, 120 <= 120
+    assert break_even_count(100.0, 1e4, 1e3, 2.0, 12.0) == 10
+    # 11 scanners need a second source: the step at 11 (222 > 132), so 10 stays the answer
+    # and a source too small for one scanner's share never wins
+    assert break_even_count(100.0, 1e3, 1e3, 2.0, 12.0, max_count=50) is None
+
+
+def test_trade_facts_from_the_illustrative_defaults() -> None:
+    # common practice, no source: ~10 kW EUV for ~7 MW (0.7 MW per kW) shared,
+    # ~1.1 MW for 250 W at IF (4.4 MW per kW) for a plasma source
+    assert SHARED_W_PER_W * 10e3 / 1e6 == pytest.approx(7.0)
+    assert SHARED_W_PER_W * 1e3 / 1e6 == pytest.approx(0.7)
+    plasma = PlasmaOption()
+    assert plasma.electrical_w / plasma.power_w * 1e3 / 1e6 == pytest.approx(4.4)
+    econ = Economics()
+    money = econ.source("any", 10e3)
+    assert (money.capital, money.maintenance_per_year) == (400e6, 40e6)  # trade facts
+
+
+def test_dose_for_throughput_inverts_the_throughput_model() -> None:
+    # the example of throughput_at_power: 300 J/m² at 200 W gives 149.75 wph
+    assert dose_for_throughput(ScannerTool(), 200.0, 149.75) == pytest.approx(300.0, rel=1e-4)
+    with pytest.raises(ValueError):
+        dose_for_throughput(ScannerTool(), 200.0, 250.0)  # beyond the stage (about 200 wph)
+
+
+@pytest.mark.parametrize(("text", "where", "words"), [
+    ("electricity_price: 0.1", "e.yaml:1:20", "needs its energy unit"),
+    ("discount_rate: 140 %", "e.yaml:1:16", "at most 1"),
+    ("sources:\n  fel: {capital: lots}", "e.yaml:2:18", "expected an amount"),
+    ("reliability:\n  kinds:\n    mirror: {mtbf: 5 h}", "e.yaml:3:5", "'mttr'"),
+    ("hours_per_year: 9000 h", "e.yaml:1:17", "at most 8784"),
+    ("currency: cr\nprice: 3", "e.yaml:2:1", "unknown key 'price'"),
+])
+def test_located_errors(text: str, where: str, words: str) -> None:
+    with pytest.raises(LayoutError) as info:
+        parse_economics(parse_yaml(text, "e.yaml"))
+    message = str(info.value)
+    assert where in message and words in message, message
+
+
+def test_cost_cli_json_and_done_when(tmp_path: pytest.TempPathFactory, capsys: pytest.CaptureFixture[str]) -> None:
+    out = f"{tmp_path}/c.json"
+    code = main(["cost", "layouts/two-bay.yaml", "layouts/two-bay.economics.yaml",
+                 "--availability", "--json", out, "-q"])
+    assert code == 0
+    doc = json.loads(pathlib.Path(out).read_text(encoding="utf-8"))
+    assert doc["format"] == "beamplan-cost/1" and doc["currency"] == "cr"
+    assert doc["break_even"]["scanners"] >= 1
+    assert doc["fab"]["cost_per_wafer"] == pytest.approx(doc["fab"]["cost_per_pass"] * 20,
+                                                         rel=1e-6)
+    assert doc["availability"]["fab"]["passes_lost_per_year"] > 0
+    assert doc["availability"]["ranking"][0]["id"] == "fel-main"  # the source's 1.6 % dominate
+    again = f"{tmp_path}/d.json"
+    main(["cost", "layouts/two-bay.yaml", "layouts/two-bay.economics.yaml", "--availability",
+          "--json", again, "-q"])
+    assert pathlib.Path(again).read_text(encoding="utf-8") == pathlib.Path(out).read_text(encoding="utf-8")
+
+
+def test_cost_cli_bad_economics_is_located(tmp_path: pytest.TempPathFactory,
+                                           capsys: pytest.CaptureFixture[str]) -> None:
+    bad = tmp_path / "bad.economics.yaml"  # type: ignore[operator]
+    bad.write_text("currency: cr\ndiscount_rate: lots\n")
+    assert main(["cost", "layouts/pilot-line.yaml", str(bad)]) == 1
+    err = capsys.readouterr().err
+    assert "bad.economics.yaml:2:16" in err and "Traceback" not in err
+
+
+def test_cost_compare_html_csv(tmp_path: pytest.TempPathFactory) -> None:
+    html, folder = f"{tmp_path}/c.html", f"{tmp_path}/csv"
+    code = main(["cost", "layouts/pilot-line.yaml", "--compare", "layouts/pilot-line.yaml",
+                 "layouts/coated-line.yaml", "--html", html, "--csv", folder, "-q"])
+    assert code == 0
+    page = pathlib.Path(html).read_text(encoding="utf-8")
+    assert "<svg" in page and "Break-even" in page
+    import os
+
+    assert sorted(n for n in os.listdir(folder) if n.endswith(".csv")) == ["break_even.csv", "cost_scanners.csv",
+                                          "cost_sources.csv"]
