@@ -65,8 +65,8 @@ def test_break_even_by_hand() -> None:
 def test_trade_facts_from_the_illustrative_defaults() -> None:
     # common practice, no source: ~10 kW EUV for ~7 MW (0.7 MW per kW) shared,
     # ~1.1 MW for 250 W at IF (4.4 MW per kW) for a plasma source
-    assert SHARED_W_PER_W * 10e3 / 1e6 == pytest.approx(7.0)
-    assert SHARED_W_PER_W * 1e3 / 1e6 == pytest.approx(0.7)
+    assert pytest.approx(7.0) == SHARED_W_PER_W * 10e3 / 1e6
+    assert pytest.approx(0.7) == SHARED_W_PER_W * 1e3 / 1e6
     plasma = PlasmaOption()
     assert plasma.electrical_w / plasma.power_w * 1e3 / 1e6 == pytest.approx(4.4)
     econ = Economics()
@@ -96,7 +96,7 @@ def test_located_errors(text: str, where: str, words: str) -> None:
     assert where in message and words in message, message
 
 
-def test_cost_cli_json_and_done_when(tmp_path: pytest.TempPathFactory, capsys: pytest.CaptureFixture[str]) -> None:
+def test_cost_cli_json_and_done_when(tmp_path: pytest.TempPathFactory) -> None:
     out = f"{tmp_path}/c.json"
     code = main(["cost", "layouts/two-bay.yaml", "layouts/two-bay.economics.yaml",
                  "--availability", "--json", out, "-q"])
@@ -111,7 +111,8 @@ def test_cost_cli_json_and_done_when(tmp_path: pytest.TempPathFactory, capsys: p
     again = f"{tmp_path}/d.json"
     main(["cost", "layouts/two-bay.yaml", "layouts/two-bay.economics.yaml", "--availability",
           "--json", again, "-q"])
-    assert pathlib.Path(again).read_text(encoding="utf-8") == pathlib.Path(out).read_text(encoding="utf-8")
+    text = pathlib.Path(again).read_text(encoding="utf-8")
+    assert text == pathlib.Path(out).read_text(encoding="utf-8")
 
 
 def test_cost_cli_bad_economics_is_located(tmp_path: pytest.TempPathFactory,
@@ -132,5 +133,5 @@ def test_cost_compare_html_csv(tmp_path: pytest.TempPathFactory) -> None:
     assert "<svg" in page and "Break-even" in page
     import os
 
-    assert sorted(n for n in os.listdir(folder) if n.endswith(".csv")) == ["break_even.csv", "cost_scanners.csv",
-                                          "cost_sources.csv"]
+    tables = sorted(n for n in os.listdir(folder) if n.endswith(".csv"))
+    assert tables == ["break_even.csv", "cost_scanners.csv", "cost_sources.csv"]

@@ -3,9 +3,9 @@
 Method: state enumeration of independent two-state repairable parts (R. Billinton,
 R. N. Allan, "Reliability Evaluation of Power Systems", 2nd ed., Plenum 1996):
 the state with nothing down, every single outage and the states of two or more
-parts down whose probability reaches a threshold are planned by the outage sweep (:mod:`beamplan.analyses.outages`,
-the view after corrective switching); the expected loss is the sum over the states
-of probability × loss rate, the counterpart of the expected energy not served
+parts down whose probability reaches a threshold are planned by the outage sweep
+(:mod:`beamplan.analyses.outages`, the view after corrective switching); the
+expected loss is the sum over the states of probability × loss rate, the counterpart of the expected energy not served
 (EENS) of power-system studies. With a switching time ``t``, a state spends the
 fraction ``1 - exp(-λ t)`` of its time (``λ`` its total rate of leaving) in the
 view at failure before the switches have moved.
@@ -156,7 +156,8 @@ def enumerate_states(components: Sequence[Component], threshold: float, max_orde
     odds = [x / (1.0 - x) for x in q]
     cases: list[tuple[str, ...]] = [(c.id,) for c in components]
     covered = none * (1.0 + sum(odds))
-    frontier = [((i,), none * odds[i]) for i in range(len(components))]
+    frontier: list[tuple[tuple[int, ...], float]] = [((i,), none * odds[i])
+                                                     for i in range(len(components))]
     for _ in range(2, max_order + 1):
         grown = []
         for state, p in frontier:

@@ -105,9 +105,11 @@ def availability_renderable(report: AvailabilityReport, simulation: Simulation |
         rank.add_row(r.id, r.kind, f"{r.mtbf_h:,.0f}", f"{r.mttr_h:g}", f"{r.wafers_gained:,.0f}")
     plasma = sum(s.plasma_wafers_lost for s in report.scanners)
     lines = [
-        f"Expected loss: {report.wafers_lost:,.0f} wafer passes a year after switching "
-        f"({report.wafers_lost_at_failure:,.0f} if no switch were moved; switching takes "
-        f"{e.switching_time_h:g} h); {report.euv_not_delivered_mwh:,.2f} MWh of EUV not "
+        f"Expected loss: {report.wafers_lost:,.0f} wafer passes a year after switching"
+        + (f" ({report.wafers_lost_at_failure:,.0f} if no switch were moved; switching takes "
+           f"{e.switching_time_h:g} h)" if report.wafers_lost_at_failure != report.wafers_lost
+           else "")
+        + f"; {report.euv_not_delivered_mwh:,.2f} MWh of EUV not "
         f"delivered a year. One plasma source per scanner: {plasma:,.0f} passes a year.",
         f"States planned: {len(report.states)} (none, {len(report.components)} single, "
         f"{report.multiples_planned} of two or more parts down, each of probability >= "
