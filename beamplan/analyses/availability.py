@@ -6,9 +6,10 @@ the state with nothing down, every single outage and the states of two or more
 parts down whose probability reaches a threshold are planned by the outage sweep
 (:mod:`beamplan.analyses.outages`, the view after corrective switching); the
 expected loss is the sum over the states of probability × loss rate, the
-counterpart of the expected energy not served (EENS) of power-system studies. With a switching time ``t``, a state spends the
-fraction ``1 - exp(-λ t)`` of its time (``λ`` its total rate of leaving) in the
-view at failure before the switches have moved.
+counterpart of the expected energy not served (EENS) of power-system studies.
+With a switching time ``t``, a state spends the fraction ``1 - exp(-λ t)`` of its
+time (``λ`` its total rate of leaving) in the view at failure, before the
+switches have moved.
 """
 
 from __future__ import annotations
