@@ -98,7 +98,7 @@ def test_located_errors(text: str, where: str, words: str) -> None:
 
 def test_cost_cli_json_and_done_when(tmp_path: pytest.TempPathFactory) -> None:
     out = f"{tmp_path}/c.json"
-    code = main(["cost", "layouts/two-bay.yaml", "layouts/two-bay.economics.yaml",
+    code = main(["cost", "layouts/two-bay.yaml", "layouts/economics/two-bay.economics.yaml",
                  "--availability", "--json", out, "-q"])
     assert code == 0
     doc = json.loads(pathlib.Path(out).read_text(encoding="utf-8"))
@@ -109,8 +109,8 @@ def test_cost_cli_json_and_done_when(tmp_path: pytest.TempPathFactory) -> None:
     assert doc["availability"]["fab"]["passes_lost_per_year"] > 0
     assert doc["availability"]["ranking"][0]["id"] == "fel-main"  # the source's 1.6 % dominate
     again = f"{tmp_path}/d.json"
-    main(["cost", "layouts/two-bay.yaml", "layouts/two-bay.economics.yaml", "--availability",
-          "--json", again, "-q"])
+    main(["cost", "layouts/two-bay.yaml", "layouts/economics/two-bay.economics.yaml",
+          "--availability", "--json", again, "-q"])
     text = pathlib.Path(again).read_text(encoding="utf-8")
     assert text == pathlib.Path(out).read_text(encoding="utf-8")
 

@@ -59,7 +59,7 @@ def simulate(components: Sequence[Component], states: dict[frozenset[str], State
     >>> s = State(("a",), 0.1, 0.1, (("x", 1.0),), (("x", 1.0),), 0.0, ())
     >>> none = State((), 0.9, 1 / 90, (), (), 0.0, ())
     >>> sim = simulate([a], {frozenset(): none, frozenset({"a"}): s}, lambda f: s,
-    ...                years=400, hours=1000.0, seed=3)
+    ...                years=400, hours=1000.0, seed=1)
     >>> sim.low < 100.0 < sim.high  # hand calculation: 1000 h × 0.1 × 1 wph
     True
     """

@@ -347,7 +347,7 @@ def load_economics(path: str | None, layout_file: str) -> Economics:
     --------
     >>> load_economics(None, "layouts/pilot-line.yaml").file
     '<illustrative defaults>'
-    >>> load_economics("layouts/two-bay.economics.yaml", "layouts/two-bay.yaml").currency
+    >>> load_economics("layouts/economics/two-bay.economics.yaml", "layouts/two-bay.yaml").currency
     'cr'
     """
     if path is not None:
