@@ -36,7 +36,8 @@ SIGNIFICANT_DIGITS = 9
 
 _RATIO_KEYS = frozenset({"headroom", "headroom_factor", "headroom_lost", "best_headroom_factor",
                          "efficiency", "gain", "setting", "base", "case",
-                         "settings_stability"})
+                         "settings_stability", "exposing", "cost_share", "discount_rate",
+                         "full_power_availability"})
 _MAP_KEYS = frozenset({"setting"})  # {name: number} maps whose values share the key's kind
 
 
