@@ -135,3 +135,36 @@ def test_cost_compare_html_csv(tmp_path: pytest.TempPathFactory) -> None:
 
     tables = sorted(n for n in os.listdir(folder) if n.endswith(".csv"))
     assert tables == ["break_even.csv", "cost_scanners.csv", "cost_sources.csv"]
+
+
+def test_economics_section_of_a_layout(tmp_path: pathlib.Path,
+                                       capsys: pytest.CaptureFixture[str]) -> None:
+    text = pathlib.Path("layouts/pilot-line.yaml").read_text(encoding="utf-8")
+    good = tmp_path / "with-economics.yaml"
+    good.write_text(text + "\neconomics:\n  currency: cr\n  electricity_price: 80 per MWh\n")
+    assert main(["check", str(good), "-q"]) == 0  # the loader lets the section through
+    out = tmp_path / "c.json"
+    assert main(["cost", str(good), "--json", str(out), "-q"]) == 0
+    doc = json.loads(out.read_text(encoding="utf-8"))
+    assert doc["currency"] == "cr" and doc["inputs"]["price_per_kwh"] == 0.08  # 80 per MWh
+    lines = len(text.splitlines())
+    bad = tmp_path / "bad-economics.yaml"
+    bad.write_text(text + "\neconomics:\n  hours_per_year: lots\n")
+    assert main(["cost", str(bad)]) == 1
+    err = capsys.readouterr().err
+    # located in the layout file, at the value (two lines below the end of the layout)
+    assert f"bad-economics.yaml:{lines + 3}:19: error: economics: 'hours_per_year'" in err
+
+
+def test_names_the_layout_does_not_know_and_wph_beyond_the_stage(
+        tmp_path: pathlib.Path, capsys: pytest.CaptureFixture[str]) -> None:
+    econ = tmp_path / "e.yaml"
+    econ.write_text("reliability:\n  ids:\n    halo-fle: {mtbf: 10 h, mttr: 1 h}\n")
+    assert main(["availability", "layouts/pilot-line.yaml", str(econ)]) == 1
+    err = capsys.readouterr().err
+    assert "e.yaml:3:5: error: economics: 'halo-fle' is not a source, element or scanner" in err
+    assert "did you mean 'halo-fel'" in err
+    # hand calculation: the default tool's stage allows 3600 / 18 s = 200 wph at most
+    econ.write_text("scanners:\n  default: {wph: 210}\n")
+    assert main(["cost", "layouts/pilot-line.yaml", str(econ)]) == 1
+    assert "e.yaml:2:13: error: economics: scanner 'litho-p1'" in capsys.readouterr().err

@@ -15,6 +15,7 @@ from __future__ import annotations
 from collections.abc import Callable
 from dataclasses import dataclass
 
+from beamplan.errors import Diagnostic, LayoutError
 from beamplan.layout.economics import SHARED_W_PER_W, Economics
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
@@ -159,8 +160,8 @@ def throughput_models(network: Network, econ: Economics) -> tuple[dict[str, Thro
 
     Raises
     ------
-    ValueError
-        When a stated ``wph`` is beyond what the stage allows.
+    LayoutError
+        When a stated ``wph`` is beyond what the stage allows (located).
 
     Examples
     --------
@@ -183,9 +184,11 @@ def throughput_models(network: Network, econ: Economics) -> tuple[dict[str, Thro
             try:
                 dose = dose_for_throughput(tool, node.need_w, wph)
             except ValueError as exc:
-                raise ValueError(f"scanner '{node.id}': {exc} of the default tool "
-                                 f"(about 200 wph); give a lower 'wph' in the economics "
-                                 "file") from None
+                key = "default" if node.id not in dict(econ.scanners) else node.id
+                raise LayoutError([Diagnostic(
+                    "error", "out-of-range", f"economics: scanner '{node.id}': {exc} of the "
+                    "default tool (about 200 wph)", econ.where(f"scanners.{key}.wph"),
+                    "give a lower 'wph'")]) from None
             basis[node.id] = f"default tool, {wph:g} wph at its need (dose {dose / 10:.1f} mJ/cm²)"
 
         def model(power_w: float, tool: ScannerTool = tool, dose: float = dose) -> float:

@@ -25,14 +25,16 @@ def _executor(jobs: int) -> Any:
 
 def _load(path: str, economics: str | None) -> tuple[Any, Any, Any]:
     from beamplan.cli.commands import _existing_file
-    from beamplan.layout.economics import load_economics
+    from beamplan.layout.economics import check_against, load_economics
     from beamplan.layout.loader import load_layout
     from beamplan.network.graph import build_network
 
     layout = load_layout(_existing_file(path))
     if economics is not None and not os.path.isfile(economics):
         raise UsageError(f"no such economics file: {economics!r}")
-    return layout, build_network(layout), load_economics(economics, path)
+    econ = load_economics(economics, path)
+    check_against(econ, layout)
+    return layout, build_network(layout), econ
 
 
 def _availability_of(args: argparse.Namespace, layout: Any, network: Any, econ: Any) -> Any:

@@ -12,12 +12,13 @@ import re
 from dataclasses import dataclass, field
 from typing import Any
 
-from beamplan.errors import LayoutError
+from beamplan.errors import Diagnostic, LayoutError, Location, did_you_mean
+from beamplan.layout.model import Layout
 from beamplan.layout.reader import MISSING, Context, MapReader
 from beamplan.layout.yamlpos import Path, YamlDocument, load_yaml
 
 __all__ = ["DEFAULT_RELIABILITY", "Economics", "PlasmaOption", "Reliability", "ScannerEconomics",
-           "SourceEconomics", "load_economics", "parse_economics"]
+           "SourceEconomics", "check_against", "load_economics", "parse_economics"]
 
 # Illustrative defaults: invented round numbers unless a trade fact is named
 # ("common practice, no source", as the issue gives them).
@@ -97,6 +98,16 @@ class Economics:
     switching_time_h: float = 0.0
     improvement: float = 0.5
     defaulted: tuple[str, ...] = field(default=())
+    locations: tuple[tuple[str, Location], ...] = field(default=(), compare=False)
+
+    def where(self, path: str) -> Location:
+        """Where ``path`` (e.g. ``scanners.litho-a1.wph``) was written, else the file."""
+        table = dict(self.locations)
+        while path:
+            if path in table:
+                return table[path]
+            path = path.rpartition(".")[0]
+        return Location(self.file, 1, 1)
 
     def source(self, source_id: str, power_w: float) -> SourceEconomics:
         """A source's money; the illustrative default scales with its power from 10 kW."""
@@ -334,10 +345,13 @@ def parse_economics(doc: YamlDocument, where: Path = ()) -> Economics:
     top.finish()
     if ctx.failed:
         raise LayoutError(ctx.diagnostics)
+    locations = tuple((".".join(str(k) for k in path[len(where):]), loc)
+                      for path, loc in doc.positions.keys.items()
+                      if path[:len(where)] == where and len(path) > len(where))
     return Economics(doc.positions.file, currency, price, rate, hours, passes, tuple(sources),
                      tuple(scanners), default_scanner, plasma, tuple(tables["kinds"]),
                      tuple(tables["parts"]), tuple(tables["ids"]), threshold, switching,
-                     improvement, tuple(defaulted))
+                     improvement, tuple(defaulted), locations)
 
 
 def load_economics(path: str | None, layout_file: str) -> Economics:
@@ -356,3 +370,44 @@ def load_economics(path: str | None, layout_file: str) -> Economics:
     if isinstance(doc.data, dict) and isinstance(doc.data.get("economics"), dict):
         return parse_economics(doc, ("economics",))
     return Economics(defaulted=("all",))
+
+
+def check_against(econ: Economics, layout: Layout) -> None:
+    """Refuse entries that name no source, scanner, part, kind or id of the layout.
+
+    Raises
+    ------
+    LayoutError
+        One located error per unknown name, with a "did you mean" hint.
+
+    Examples
+    --------
+    >>> from beamplan.layout.loader import load_layout
+    >>> from beamplan.layout.yamlpos import parse_yaml
+    >>> econ = parse_economics(parse_yaml("sources:\\n  halo-fle: {capital: 1}", "e.yaml"))
+    >>> check_against(econ, load_layout("layouts/pilot-line.yaml"))
+    Traceback (most recent call last):
+    ...
+    beamplan.errors.LayoutError: e.yaml:2:3: error: economics: 'halo-fle' is not a source of \
+layout 'pilot-line'; did you mean 'halo-fel'?
+    """
+    kinds = {*DEFAULT_RELIABILITY, *(e.kind for e in layout.elements)}
+    groups = [("sources", [name for name, _ in econ.sources], [x.id for x in layout.sources],
+               "a source"),
+              ("scanners", [name for name, _ in econ.scanners], [x.id for x in layout.scanners],
+               "a scanner"),
+              ("reliability.ids", [name for name, _ in econ.by_id], list(layout.node_ids),
+               "a source, element or scanner"),
+              ("reliability.parts", [name for name, _ in econ.by_part],
+               sorted({e.part for e in layout.elements if e.part}), "a part used"),
+              ("reliability.kinds", [name for name, _ in econ.by_kind], sorted(kinds), "a kind")]
+    problems = []
+    for section, names, known, noun in groups:
+        for name in names:
+            if name not in known:
+                problems.append(Diagnostic(
+                    "error", "unknown-id", f"economics: '{name}' is not {noun} of layout "
+                    f"'{layout.name}'", econ.where(f"{section}.{name}"),
+                    did_you_mean(name, known) or f"the choices are: {', '.join(known)}"))
+    if problems:
+        raise LayoutError(problems)
