@@ -168,3 +168,16 @@ def test_names_the_layout_does_not_know_and_wph_beyond_the_stage(
     econ.write_text("scanners:\n  default: {wph: 210}\n")
     assert main(["cost", "layouts/pilot-line.yaml", str(econ)]) == 1
     assert "e.yaml:2:13: error: economics: scanner 'litho-p1'" in capsys.readouterr().err
+
+
+def test_cost_page_with_availability_is_well_formed(tmp_path: pathlib.Path) -> None:
+    from tests.test_html import parse
+
+    html = tmp_path / "c.html"
+    assert main(["cost", "layouts/pilot-line.yaml", "--availability", "--html", str(html),
+                 "-q"]) == 0
+    checker = parse(html.read_text(encoding="utf-8"))
+    assert checker.problems == [] and checker.stack == []  # every tag closed, in order
+    assert checker.seen.count("svg") == 3  # cost breakdown, break-even, passes lost
+    ids = [v for _, k, v in checker.attrs if k == "id"]
+    assert len(ids) == len(set(ids))

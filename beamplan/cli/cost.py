@@ -123,7 +123,7 @@ def _cost(args: argparse.Namespace) -> int:
     if args.html:
         from beamplan.report.cost_pages import cost_html
 
-        emit(args.html, cost_html(report, __version__), inputs)
+        emit(args.html, cost_html(report, __version__, avail), inputs)
     if STDOUT not in (args.json, args.html) and not args.quiet:
         console = _console()
         console.print(view.cost_renderable(report))

@@ -98,8 +98,9 @@ def availability_chart(report: AvailabilityReport) -> Picture:
     return Picture(figure, "availability")
 
 
-def cost_html(report: CostReport, version: str) -> str:
-    """The cost report as one self-contained page."""
+def cost_html(report: CostReport, version: str,
+              availability: AvailabilityReport | None = None) -> str:
+    """The cost report as one self-contained page (with the availability sections if given)."""
     e = report.economics
     cur = e.currency
     summary = facts([
@@ -133,14 +134,22 @@ def cost_html(report: CostReport, version: str) -> str:
     }
     sections = [("summary", "Summary"), ("sources", "Sources"), ("scanners", "Scanners"),
                 ("charts", "Charts"), ("assumptions", "Assumptions")]
+    if availability is not None:
+        extra = _availability_body(availability, None)
+        body.update({f"availability-{k}": v for k, v in extra.items()})
+        sections += [(f"availability-{k}", f"Availability: {name.lower()}")
+                     for k, name in _AVAILABILITY_SECTIONS]
     return page(f"beamplan cost: {report.layout}", f"Cost and energy: {report.layout}",
                 f"break-even at {report.break_even} scanners" if report.break_even
                 else "no break-even", sections, body, f"beamplan {version}.")
 
 
-def availability_html(report: AvailabilityReport, version: str,
-                      simulation: Simulation | None = None) -> str:
-    """The availability report as one self-contained page."""
+_AVAILABILITY_SECTIONS = (("summary", "Summary"), ("scanners", "Scanners"),
+                          ("ranking", "Ranking"), ("chart", "Chart"))
+
+
+def _availability_body(report: AvailabilityReport, simulation: Simulation | None
+                       ) -> dict[str, str]:
     pairs = [("layout", f"{report.layout} ({report.file})"),
              ("expected loss", f"{report.wafers_lost:,.0f} wafer passes a year"),
              ("method", METHOD)]
@@ -157,11 +166,15 @@ def availability_html(report: AvailabilityReport, version: str,
                     [[r.id, r.kind, f"{r.mtbf_h:,.0f}", f"{r.mttr_h:g}",
                       f"{r.wafers_gained:,.0f}"] for r in report.ranking[:20]],
                     numeric=range(2, 5))
-    body = {"summary": facts(pairs), "scanners": scanners, "ranking": ranking,
+    return {"summary": facts(pairs), "scanners": scanners, "ranking": ranking,
             "chart": figure(inline_svg(availability_chart(report), "a", "passes lost"),
                             "Expected wafer passes lost per year.", "plot")}
-    sections = [("summary", "Summary"), ("scanners", "Scanners"), ("ranking", "Ranking"),
-                ("chart", "Chart")]
+
+
+def availability_html(report: AvailabilityReport, version: str,
+                      simulation: Simulation | None = None) -> str:
+    """The availability report as one self-contained page."""
     return page(f"beamplan availability: {report.layout}", f"Availability: {report.layout}",
-                f"{report.wafers_lost:,.0f} wafer passes lost a year", sections, body,
+                f"{report.wafers_lost:,.0f} wafer passes lost a year",
+                list(_AVAILABILITY_SECTIONS), _availability_body(report, simulation),
                 f"beamplan {version}.")
