@@ -84,22 +84,20 @@ def availability_renderable(report: AvailabilityReport, simulation: Simulation |
                             top: int = 10) -> Any:
     """The terminal report: per scanner, the fab's expected loss, the parts worth hardening."""
     from rich.console import Group
-    from rich.table import Table
     from rich.text import Text
 
+    from beamplan.report.cost_view import table
+
     e = report.economics
-    sc = Table(title="Per scanner, per year (a pass is one wafer exposed once)",
-               title_justify="left")
-    for col in ("scanner", "wph", "exposing", "full power", "hours lost", "passes lost",
-                "plasma per scanner"):
-        sc.add_column(col, justify="left" if col == "scanner" else "right")
+    sc = table("Per scanner and year (a pass is one wafer exposed once; plasma: the passes "
+               "lost with its own plasma source)",
+                ["scanner", "wph", "exposing", "full power", "hours lost", "passes lost",
+                 "plasma"])
     for s in report.scanners:
         sc.add_row(s.id, f"{s.wph:.1f}", f"{s.exposing:.0%}", f"{s.full_power:.4%}",
                    f"{s.hours_lost:,.1f}", f"{s.wafers_lost:,.0f}", f"{s.plasma_wafers_lost:,.0f}")
-    rank = Table(title=f"Worth hardening first (unavailability × {e.improvement:g}; "
-                 "sources and elements)", title_justify="left")
-    for col in ("part", "kind", "MTBF h", "MTTR h", "passes gained/yr"):
-        rank.add_column(col, justify="left" if col in ("part", "kind") else "right")
+    rank = table(f"Worth hardening first (unavailability × {e.improvement:g}; sources and "
+                  "elements)", ["part", "kind", "MTBF h", "MTTR h", "passes gained/yr"], 2)
     shown = [r for r in report.ranking if r.kind != "scanner"][:top]
     for r in shown:
         rank.add_row(r.id, r.kind, f"{r.mtbf_h:,.0f}", f"{r.mttr_h:g}", f"{r.wafers_gained:,.0f}")

@@ -8,7 +8,7 @@ from beamplan.analyses.cost import CostReport
 from beamplan.report.document import csv_text
 
 __all__ = ["COST_FORMAT", "compare_renderable", "cost_csv", "cost_document", "cost_renderable",
-           "money"]
+           "money", "short_money", "table"]
 
 COST_FORMAT = "beamplan-cost/1"
 
@@ -27,6 +27,30 @@ def money(value: float) -> str:
     return f"{value:.2f}"
 
 
+def short_money(value: float) -> str:
+    """An amount in a narrow column: k, M, bn.
+
+    Examples
+    --------
+    >>> short_money(37_757_170.0), short_money(950.0), short_money(2.5e9)
+    ('37.8 M', '950', '2.50 bn')
+    """
+    for size, word in ((1e9, "bn"), (1e6, "M"), (1e3, "k")):
+        if abs(value) >= size:
+            return f"{value / size:.{1 if abs(value) >= 10 * size else 2}f} {word}"
+    return f"{value:.0f}"
+
+
+def table(title: str, columns: list[str], first: int = 1) -> Any:
+    """A report table: the first ``first`` columns are names (left, never wrapped)."""
+    from beamplan.report.terminal import titled_table
+
+    out = titled_table(title)
+    for i, col in enumerate(columns):
+        out.add_column(col, justify="left" if i < first else "right", no_wrap=True)
+    return out
+
+
 def _per(total: float, count: float) -> float:
     return total / count if count > 0 else float("nan")
 
@@ -34,9 +58,9 @@ def _per(total: float, count: float) -> float:
 def _illustrative(report: CostReport) -> str:
     given = report.economics.defaulted
     if "all" in given:
-        return "every economic input is an illustrative default (docs/cost.md)"
-    return ("illustrative defaults used for: " + ", ".join(given)) if given else \
-        "every economic input given in " + report.economics.file
+        return "Every economic input is an illustrative default (docs/cost.md)"
+    return ("Illustrative defaults used for: " + ", ".join(given)) if given else \
+        "Every economic input given in " + report.economics.file
 
 
 def cost_document(report: CostReport, version: str, availability: Any = None) -> dict[str, Any]:
@@ -127,43 +151,36 @@ def cost_csv(report: CostReport) -> dict[str, str]:
 def cost_renderable(report: CostReport) -> Any:
     """The terminal report: sources, scanners, fab against the alternative, break-even."""
     from rich.console import Group
-    from rich.table import Table
     from rich.text import Text
 
     e = report.economics
     cur = e.currency
-    src = Table(title=f"Shared sources, per year ({cur})", title_justify="left")
-    for col in ("source", "output", "draw", "energy MWh", "capital", "maintenance",
-                "electricity", "total"):
-        src.add_column(col, justify="left" if col == "source" else "right")
+    src = table(f"Shared sources, per year ({cur})", ["source", "kW out", "MW in", "MWh",
+                                                      "capital", "maint.", "elec.", "total"])
     for s in report.sources:
-        src.add_row(s.id + (" (standby)" if s.standby else ""), f"{s.output_w / 1e3:.2f} kW",
-                    f"{s.electrical_w / 1e6:.2f} MW", f"{s.energy_mwh:,.0f}",
-                    money(s.capital_per_year), money(s.maintenance_per_year),
-                    money(s.electricity_per_year), money(s.total_per_year))
-    sc = Table(title=f"Per scanner (cost per wafer pass in {cur})", title_justify="left")
-    for col in ("scanner", "delivered", "wph", "passes/yr", "capital", "maint.", "elec.",
-                "per pass", "kWh/pass", "plasma per pass"):
-        sc.add_column(col, justify="left" if col == "scanner" else "right")
+        src.add_row(s.id + ("*" if s.standby else ""), f"{s.output_w / 1e3:.2f}",
+                    f"{s.electrical_w / 1e6:.2f}", f"{s.energy_mwh:,.0f}",
+                    short_money(s.capital_per_year), short_money(s.maintenance_per_year),
+                    short_money(s.electricity_per_year), short_money(s.total_per_year))
+    sc = table(f"Per scanner and year: passes; per wafer pass: cost ({cur}), energy, "
+                "cost with its own plasma source",
+                ["scanner", "wph", "passes", "capital", "maint.", "elec.", "total", "kWh",
+                 "plasma"])
     for c in report.scanners:
-        per = _per(c.total_per_year, c.passes_per_year)
-        sc.add_row(c.id, f"{c.delivered_w:.0f} W", f"{c.wph:.1f}", f"{c.passes_per_year:,.0f}",
-                   f"{_per(c.capital_per_year, c.passes_per_year):.2f}",
-                   f"{_per(c.maintenance_per_year, c.passes_per_year):.2f}",
-                   f"{_per(c.electricity_per_year, c.passes_per_year):.2f}", f"{per:.2f}",
-                   f"{_per(c.energy_mwh * 1e3, c.passes_per_year):.1f}",
+        n = c.passes_per_year
+        sc.add_row(c.id, f"{c.wph:.1f}", short_money(n), f"{_per(c.capital_per_year, n):.2f}",
+                   f"{_per(c.maintenance_per_year, n):.2f}",
+                   f"{_per(c.electricity_per_year, n):.2f}", f"{_per(c.total_per_year, n):.2f}",
+                   f"{_per(c.energy_mwh * 1e3, n):.1f}",
                    f"{_per(c.plasma_total_per_year, c.plasma_passes_per_year):.2f}")
-    fab = Table(title=f"The fab: shared source against one plasma source per scanner ({cur})",
-                title_justify="left")
-    for col in ("", "per year", "energy MWh/yr", "passes/yr", "per pass", "per wafer",
-                "kWh per wafer"):
-        fab.add_column(col, justify="left" if not col else "right")
+    fab = table(f"The fab: shared source against one plasma source per scanner ({cur})",
+                 ["", "a year", "MWh", "passes", "a pass", "a wafer", "kWh/wafer"])
     n = e.passes_per_wafer
     for name, total, energy, passes in (
-            ("shared source", report.total_per_year, report.energy_mwh, report.passes_per_year),
-            ("plasma per scanner", report.plasma_total_per_year, report.plasma_energy_mwh,
+            ("shared", report.total_per_year, report.energy_mwh, report.passes_per_year),
+            ("plasma", report.plasma_total_per_year, report.plasma_energy_mwh,
              report.plasma_passes_per_year)):
-        fab.add_row(name, money(total), f"{energy:,.0f}", f"{passes:,.0f}",
+        fab.add_row(name, short_money(total), f"{energy:,.0f}", short_money(passes),
                     f"{_per(total, passes):.2f}", f"{_per(total, passes) * n:.1f}",
                     f"{_per(energy * 1e3, passes) * n:,.0f}")
     even = (f"the shared source costs less from {report.break_even} scanners on"
@@ -173,6 +190,9 @@ def cost_renderable(report: CostReport) -> Any:
         f"Break-even: {even} (each taking {report.per_scanner_source_w / 1e3:.3g} kW of "
         f"source power; a source gives {report.rated_w / 1e3:.3g} kW).",
         f"A wafer is {n:g} exposure passes. {_illustrative(report)}.",
+        *(["* a standby source: " + ", ".join(s.id for s in report.sources if s.standby)
+           + (" (kept warm)" if any(s.standby and s.electrical_w > 0 for s in report.sources)
+              else "") + "."] if any(s.standby for s in report.sources) else []),
         *(f"Assumed: {a}." for a in report.assumptions)]))
     return Group(Text(f"Cost and energy: {report.layout} ({report.file})", style="bold"),
                  src, sc, fab, notes)
@@ -180,16 +200,13 @@ def cost_renderable(report: CostReport) -> Any:
 
 def compare_renderable(rows: list[dict[str, Any]], currency: str) -> Any:
     """Layouts side by side: cost, energy, headroom and availability."""
-    from rich.table import Table
-
-    table = Table(title=f"Source options side by side ({currency})", title_justify="left")
-    for col in ("layout", "sources", "per year", "energy MWh/yr", "per pass", "headroom",
-                "passes lost/yr", "break-even"):
-        table.add_column(col, justify="left" if col in ("layout", "sources") else "right")
+    out = table(f"Source options side by side ({currency})",
+                ["layout", "sources", "per year", "MWh/yr", "per pass", "headroom",
+                 "passes lost/yr", "break-even"], first=2)
     for r in rows:
-        table.add_row(r["layout"], r["sources"], money(r["total_per_year"]),
+        out.add_row(r["layout"], r["sources"], short_money(r["total_per_year"]),
                       f"{r['energy_mwh_per_year']:,.0f}", f"{r['cost_per_pass']:.2f}",
                       f"{(r['headroom_factor'] - 1) * 100:+.1f}%",
                       f"{r['passes_lost_per_year']:,.0f}",
                       str(r["break_even"]) if r["break_even"] is not None else "never")
-    return table
+    return out
