@@ -90,3 +90,25 @@ def test_availability_cli(tmp_path: pytest.TempPathFactory) -> None:
     assert doc["simulation"]["years"] == 300
     assert "Billinton" in doc["method"]
     assert "<svg" in pathlib.Path(f"{tmp_path}/a.html").read_text(encoding="utf-8")
+    again = f"{tmp_path}/b.json"
+    main(["availability", "layouts/pilot-line.yaml", "--simulate", "300", "--json", again, "-q"])
+    # seeded: byte-identical on a re-run
+    assert pathlib.Path(again).read_bytes() == pathlib.Path(out).read_bytes()
+
+
+def test_ctrl_c_reports_what_was_planned(monkeypatch: pytest.MonkeyPatch,
+                                         capsys: pytest.CaptureFixture[str]) -> None:
+    from beamplan.analyses import outages
+
+    real = outages.run_chunk
+    calls = []
+
+    def stop_after_one(*args: object) -> object:
+        calls.append(1)
+        if len(calls) > 1:
+            raise KeyboardInterrupt
+        return real(*args)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(outages, "run_chunk", stop_after_one)
+    assert main(["availability", "layouts/two-bay.yaml", "-q"]) == 130
+    assert "interrupted" in capsys.readouterr().err

@@ -71,6 +71,12 @@ def _simulate(args: argparse.Namespace, network: Any, report: Any) -> Any:
                     switching_time_h=econ.switching_time_h, seed=args.seed)
 
 
+def _interrupted(report: Any) -> None:
+    planned = sum(1 for s in report.states if s.after or s.at_failure)
+    sys.stderr.write(f"beamplan: interrupted; the report counts only the outage states "
+                     f"planned before ({planned} with a loss), so it understates the loss\n")
+
+
 def _cost(args: argparse.Namespace) -> int:
     from beamplan.analyses.cost import cost_of
     from beamplan.cli.commands import _console
@@ -133,8 +139,10 @@ def _cost(args: argparse.Namespace) -> int:
             console.print(availability_renderable(avail, top=args.top))
         if rows:
             console.print(view.compare_renderable(rows, econ.currency))
-    interrupted = avail is not None and avail.interrupted
-    return 130 if interrupted else int(ExitCode.OK)
+    if avail is not None and avail.interrupted:
+        _interrupted(avail)
+        return 130
+    return int(ExitCode.OK)
 
 
 def _availability(args: argparse.Namespace) -> int:
@@ -163,7 +171,10 @@ def _availability(args: argparse.Namespace) -> int:
         emit(args.html, availability_html(report, __version__, sim), inputs)
     if STDOUT not in (args.json, args.html) and not args.quiet:
         _console().print(view.availability_renderable(report, sim, args.top))
-    return 130 if report.interrupted else int(ExitCode.OK)
+    if report.interrupted:
+        _interrupted(report)
+        return 130
+    return int(ExitCode.OK)
 
 
 def _common(parser: argparse.ArgumentParser) -> None:

@@ -88,6 +88,8 @@ def cost_document(report: CostReport, version: str, availability: Any = None) ->
                       "electricity_per_year": s.electricity_per_year,
                       "energy_mwh_per_year": s.energy_mwh,
                       "cost_per_pass": _per(s.total_per_year, s.passes_per_year),
+                      "cost_per_wafer": _per(s.total_per_year, s.passes_per_year)
+                      * e.passes_per_wafer,
                       "energy_kwh_per_pass": _per(s.energy_mwh * 1e3, s.passes_per_year),
                       "plasma": {"passes_per_year": s.plasma_passes_per_year,
                                  "total_per_year": s.plasma_total_per_year,
@@ -194,7 +196,10 @@ def cost_renderable(report: CostReport) -> Any:
            + (" (kept warm)" if any(s.standby and s.electrical_w > 0 for s in report.sources)
               else "") + "."] if any(s.standby for s in report.sources) else []),
         *(f"Assumed: {a}." for a in report.assumptions)]))
-    return Group(Text(f"Cost and energy: {report.layout} ({report.file})", style="bold"),
+    status = "" if report.plan.status == "met" else \
+        f"  [plan {report.plan.status}: some scanners get less than their need]"
+    return Group(Text(f"Cost and energy: {report.layout} ({report.file}){status}",
+                      style="bold"),
                  src, sc, fab, notes)
 
 
