@@ -181,3 +181,26 @@ def test_cost_page_with_availability_is_well_formed(tmp_path: pathlib.Path) -> N
     assert checker.seen.count("svg") == 3  # cost breakdown, break-even, passes lost
     ids = [v for _, k, v in checker.attrs if k == "id"]
     assert len(ids) == len(set(ids))
+
+
+def test_a_source_without_a_draw_takes_the_trade_fact_and_the_curve_gives_the_count() -> None:
+    text = pathlib.Path("layouts/pilot-line.yaml").read_text(encoding="utf-8")
+    bare = text.replace("halo-fel: {power: 6 kW, electrical: 9 MW, electrical_fixed: 3 MW}",
+                        "halo-fel: {power: 6 kW}")
+    assert bare != text
+    from tests.conftest import network_from_text
+
+    net = network_from_text(bare)
+    report = cost_of(beamplan.plan(net), net, Economics())
+    src = report.sources[0]
+    # common practice, no source: 0.7 MW of wall-plug draw per kW of EUV
+    assert src.electrical_w == pytest.approx(700.0 * src.output_w)
+    assert src.draw_basis.startswith("illustrative")
+    # the break-even count is the first N of the curve at which the shared side costs less
+    first = next(p.scanners for p in report.curve if p.shared_per_year <= p.plasma_per_year)
+    assert report.break_even == first
+    # hand calculation of the first point: one source's fixed cost + one scanner's draw
+    one = report.curve[0]
+    fixed = src.capital_per_year + src.maintenance_per_year  # no fixed draw without a layout draw
+    variable = 700.0 * report.per_scanner_source_w * 8000.0 / 1e6 * 1e3 * 0.10
+    assert one.shared_per_year == pytest.approx(fixed + variable)
