@@ -168,3 +168,6 @@ def register(sub: Any) -> None:
     draw.register(sub)
     calc.register(sub)
     tolerance.register(sub)
+    from beamplan.cli import cost
+
+    cost.register(sub)

@@ -204,6 +204,7 @@ def parse_layout(doc: YamlDocument) -> Layout:
     scanners, used_profiles = read_scanners(ctx, _section(ctx, top, "scanners", True), profiles)
     links = _read_beamlines(ctx, top, doc.text.splitlines())
     top.raw("tolerances")  # read by beamplan.layout.tolerances
+    top.raw("economics")  # read by beamplan.layout.economics (cost, availability)
     top.finish()
     for part in parts:
         if part not in used_parts:

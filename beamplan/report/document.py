@@ -38,7 +38,8 @@ _RATIO_KEYS = frozenset({"headroom", "headroom_factor", "headroom_lost", "best_h
                          "efficiency", "gain", "setting", "base", "case",
                          "settings_stability", "probability", "low", "high", "first",
                          "total", "first_conf", "total_conf", "headroom_q05", "headroom_q50",
-                         "headroom_q95", "planned_headroom", "interpolation_error"})
+                         "headroom_q95", "planned_headroom", "interpolation_error",
+                         "exposing", "cost_share", "discount_rate", "full_power_availability"})
 _MAP_KEYS = frozenset({"setting"})  # {name: number} maps whose values share the key's kind
 
 
