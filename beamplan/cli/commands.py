@@ -137,8 +137,9 @@ def register(sub: Any) -> None:
     plan.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     plan.set_defaults(handler=_plan)
 
-    from beamplan.cli import analyses, calc, draw
+    from beamplan.cli import ageing, analyses, calc, draw
 
+    ageing.register(sub)
     analyses.register(sub)
     draw.register(sub)
     calc.register(sub)

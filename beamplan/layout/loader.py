@@ -202,6 +202,7 @@ def parse_layout(doc: YamlDocument) -> Layout:
     profiles = _section(ctx, top, "profiles", False)
     scanners, used_profiles = read_scanners(ctx, _section(ctx, top, "scanners", True), profiles)
     links = _read_beamlines(ctx, top, doc.text.splitlines())
+    top.raw("ageing")  # an optional ageing section, read by layout/ageing.py
     top.finish()
     for part in parts:
         if part not in used_parts:
