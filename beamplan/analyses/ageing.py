@@ -17,8 +17,8 @@ import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 
-from beamplan.analyses.ageing_laws import LawModel
-from beamplan.layout.ageing import AgeingSpec, resolve_optics
+from beamplan.analyses.ageing_laws import LawModel, resolve_optics
+from beamplan.layout.ageing import AgeingSpec
 from beamplan.layout.model import Layout
 from beamplan.optimise.result import Plan
 
@@ -255,13 +255,14 @@ def run_runway(layout: Layout, spec: AgeingSpec, *, horizon_h: float | None = No
     state = stepper.new_state()
     plan = stepper.plan(state)
     samples = [_sample(stepper, 0.0, state, plan)]
-    result = dict(runway=None, scanner=None, optic=None, gain=None)
+    result: dict[str, float | str | None] = {"runway": None, "scanner": None, "optic": None,
+                                             "gain": None}
     binding: tuple[str, ...] = ()
     hour, interrupted = 0.0, False
     try:
         if plan.status != "met":
             sid, optic, g = _limiting(stepper, plan, state)
-            result.update(runway=0.0, scanner=sid, optic=optic, gain=g)
+            result.update({"runway": 0.0, "scanner": sid, "optic": optic, "gain": g})
         while hour < horizon - 1e-9 and not (result["runway"] is not None
                                               and stop_at_shortfall):
             nxt = min([hour + step, horizon] + [t for t in marks if t > hour + 1e-9])
@@ -278,7 +279,7 @@ def run_runway(layout: Layout, spec: AgeingSpec, *, horizon_h: float | None = No
                 at_high = stepper.advance(state, high - hour, plan)
                 sid, optic, g = _limiting(stepper, stepper.plan(at_high), at_high)
                 binding = tuple(b.description for b in plan.binding[:3])
-                result.update(runway=low, scanner=sid, optic=optic, gain=g)
+                result.update({"runway": low, "scanner": sid, "optic": optic, "gain": g})
             hour, state, plan = nxt, new_state, new_plan
             samples.append(_sample(stepper, hour, state, plan))
             if hour in by_time:

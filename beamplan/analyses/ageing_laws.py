@@ -17,9 +17,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from beamplan.layout.ageing import Law
+from beamplan.errors import Diagnostic, LayoutError, did_you_mean
+from beamplan.layout.ageing import AgeingSpec, Law
+from beamplan.layout.model import Layout
 
-__all__ = ["GAIN_FLOOR", "LawModel"]
+__all__ = ["GAIN_FLOOR", "LawModel", "resolve_optics"]
 
 GAIN_FLOOR = 1e-9  # a gain never reaches 0, so that its logarithm exists
 _TABLE_POINTS = 121
@@ -138,3 +140,43 @@ class LawModel:
                 at = grid[k - 1] + share * (grid[k] - grid[k - 1])
                 break
         return at if worst else min(state, at)
+
+
+def resolve_optics(spec: AgeingSpec, layout: Layout) -> dict[str, Law]:
+    """The law of every aged element (an element's own law wins over its part's).
+
+    Raises
+    ------
+    LayoutError
+        A target that names no element or part of the layout, located.
+
+    Examples
+    --------
+    >>> from beamplan.layout.loader import load_layout
+    >>> from beamplan.layout.yamlpos import load_yaml
+    >>> from beamplan.layout.ageing import parse_ageing
+    >>> lay = load_layout("layouts/two-bay.yaml")
+    >>> spec = parse_ageing(load_yaml("layouts/two-bay.ageing.yaml"))
+    >>> sorted(resolve_optics(spec, lay))[:3]
+    ['a-fold', 'an-fold', 'an-if1']
+    """
+    parts = {e.part for e in layout.elements if e.part}
+    ids = {e.id for e in layout.elements}
+    problems = []
+    out: dict[str, Law] = {}
+    for law in spec.laws:
+        if law.target not in ids and law.target not in parts:
+            problems.append(Diagnostic(
+                "error", "unknown-id", f"ageing: '{law.target}' is no element or part of "
+                f"layout '{layout.name}'", law.location,
+                did_you_mean(law.target, sorted(ids | parts)) or "name an element or a part"))
+            continue
+        for element in layout.elements:
+            if element.part == law.target and element.id not in out:
+                out[element.id] = law
+    for law in spec.laws:
+        if law.target in ids:
+            out[law.target] = law
+    if problems:
+        raise LayoutError(problems)
+    return dict(sorted(out.items()))

@@ -200,7 +200,8 @@ def plan_maintenance(layout: Layout, spec: AgeingSpec, *, objective: str | None 
     check: Runway | None = None
     model = build_model(stepper, spec, windows, horizon, goal)
     rounds = 0
-    for rounds in range(1, MAX_ROUNDS + 1):
+    while rounds < MAX_ROUNDS:
+        rounds += 1
         schedule = solve(model, time_limit_s=time_limit_s)
         if schedule is None:
             break

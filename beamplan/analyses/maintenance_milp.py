@@ -162,7 +162,7 @@ def solve(model: MaintenanceModel, forbid: Iterable[Choice] = (),
 
     inf = highspy.kHighsInf
     with quiet_stdout():
-        h = highspy.Highs()
+        h = highspy.Highs()  # type: ignore[no-untyped-call]
     h.setOptionValue("output_flag", False)
     h.setOptionValue("time_limit", float(time_limit_s))
     h.setOptionValue("mip_rel_gap", float(gap))

@@ -29,12 +29,11 @@ from dataclasses import dataclass, field, replace
 from typing import Any
 
 from beamplan.errors import Diagnostic, LayoutError, Location, did_you_mean
-from beamplan.layout.model import Layout
 from beamplan.layout.reader import MISSING, Context, MapReader
 from beamplan.layout.yamlpos import Path, YamlDocument
 
 __all__ = ["HOURS_PER_MONTH", "HOURS_PER_YEAR", "Action", "AgeingSpec", "Law", "MirrorModel",
-           "duration_h", "parse_ageing", "resolve_optics"]
+           "duration_h", "parse_ageing"]
 
 HOURS_PER_YEAR = 8766.0  # 365.25 days (common practice)
 HOURS_PER_MONTH = HOURS_PER_YEAR / 12.0
@@ -344,9 +343,8 @@ def parse_ageing(doc: YamlDocument, *, in_layout: bool = False) -> AgeingSpec:
     ctx = Context(doc.positions)
     data = doc.data if isinstance(doc.data, dict) else {}
     top = MapReader(ctx, data, {k: (k,) for k in data}, "ageing file", ())
-    if not in_layout:
-        if top.integer("format", default=1) != 1:
-            ctx.error("bad-format", "ageing file 'format' must be 1", top.value_loc("format"),
+    if not in_layout and top.integer("format", default=1) != 1:
+        ctx.error("bad-format", "ageing file 'format' must be 1", top.value_loc("format"),
                       "write 'format: 1'")
     if top.mapping("ageing", required=True) is None:
         raise LayoutError(ctx.diagnostics)
@@ -361,7 +359,8 @@ def parse_ageing(doc: YamlDocument, *, in_layout: bool = False) -> AgeingSpec:
     if objective not in ("cost", "downtime"):
         ctx.error("bad-value", f"ageing: objective '{objective}'", r.value_loc("objective"),
                   "write 'objective: cost' or 'objective: downtime'")
-    every, at = None, ()
+    every: float | None = None
+    at: tuple[float, ...] = ()
     if r.mapping("windows") is not None:
         w = r.sub("windows", "ageing windows")
         every = _duration(w, "every", None)
@@ -401,42 +400,3 @@ def _window_times(w: MapReader, raw: Any, start: dt.date | None) -> tuple[float,
             continue
         out.append(parts[0] * _DURATION[parts[1]])
     return tuple(out)
-
-
-def resolve_optics(spec: AgeingSpec, layout: Layout) -> dict[str, Law]:
-    """The law of every aged element (an element's own law wins over its part's).
-
-    Raises
-    ------
-    LayoutError
-        A target that names no element or part of the layout, located.
-
-    Examples
-    --------
-    >>> from beamplan.layout.loader import load_layout
-    >>> from beamplan.layout.yamlpos import load_yaml
-    >>> lay = load_layout("layouts/two-bay.yaml")
-    >>> spec = parse_ageing(load_yaml("layouts/two-bay.ageing.yaml"))
-    >>> sorted(resolve_optics(spec, lay))[:3]
-    ['a-fold', 'an-fold', 'an-if1']
-    """
-    parts = {e.part for e in layout.elements if e.part}
-    ids = {e.id for e in layout.elements}
-    problems = []
-    out: dict[str, Law] = {}
-    for law in spec.laws:
-        if law.target not in ids and law.target not in parts:
-            problems.append(Diagnostic(
-                "error", "unknown-id", f"ageing: '{law.target}' is no element or part of "
-                f"layout '{layout.name}'", law.location,
-                did_you_mean(law.target, sorted(ids | parts)) or "name an element or a part"))
-            continue
-        for element in layout.elements:
-            if element.part == law.target and element.id not in out:
-                out[element.id] = law
-    for law in spec.laws:
-        if law.target in ids:
-            out[law.target] = law
-    if problems:
-        raise LayoutError(problems)
-    return dict(sorted(out.items()))

@@ -9,8 +9,8 @@ from typing import Any
 from beamplan.analyses.ageing import Runway
 from beamplan.analyses.maintenance import MaintenancePlan
 from beamplan.report.ageing_view import ILLUSTRATIVE, _check_words, _runway_words
-from beamplan.report.html import facts, figure, inline_svg, page, pct, table
 from beamplan.report.diagram import PALETTE
+from beamplan.report.html import facts, figure, inline_svg, page, pct, table
 from beamplan.report.plots import Picture, _figure, _grid, _styled
 
 __all__ = ["ageing_html", "headroom_over_time"]
