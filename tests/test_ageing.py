@@ -204,7 +204,7 @@ def test_the_layout_may_carry_its_own_ageing_section(tmp_path: pathlib.Path,
 
 def test_demo_command_holds_every_need_and_writes_every_format(
         tmp_path: pathlib.Path, capsys: pytest.CaptureFixture[str]) -> None:
-    args = ["ageing", "layouts/two-bay.yaml", "layouts/two-bay.ageing.yaml",
+    args = ["ageing", "layouts/two-bay.yaml", "layouts/ageing/two-bay.ageing.yaml",
             "--horizon", "2 years", "--step", "2000 h"]
     code = main([*args, "--json", "-", "--csv", str(tmp_path / "csv"),
                  "--html", str(tmp_path / "a.html"), "--plot", str(tmp_path / "a.svg")])

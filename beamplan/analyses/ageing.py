@@ -190,7 +190,7 @@ def _limiting(stepper: Stepper, plan: Plan, state: Mapping[str, float]
     short = [s for s in plan.scanners if s.need_w > 0 and s.status != "met"]
     if not short:
         return None, None, None
-    worst = min(short, key=lambda s: (s.delivered_w / s.need_w, s.id))
+    worst = min(short, key=lambda s: (round(s.delivered_w / s.need_w, 9), s.id))  # ties: by id
     gains = stepper.gains(state)
     best: tuple[float, str] | None = None
     for eid in sorted(gains):
@@ -238,10 +238,10 @@ def run_runway(layout: Layout, spec: AgeingSpec, *, horizon_h: float | None = No
     >>> from beamplan.layout.yamlpos import load_yaml
     >>> from beamplan.layout.ageing import parse_ageing
     >>> lay = load_layout("layouts/two-bay.yaml")
-    >>> spec = parse_ageing(load_yaml("layouts/two-bay.ageing.yaml"))
+    >>> spec = parse_ageing(load_yaml("layouts/ageing/two-bay.ageing.yaml"))
     >>> r = run_runway(lay, spec, step_h=2000.0)
-    >>> r.scanner, r.runway_h is not None and 4000 < r.runway_h < 20000
-    ('litho-b1', True)
+    >>> r.scanner, r.limiting_optic, r.runway_h is not None and 4000 < r.runway_h < 20000
+    ('litho-b1', 'an-fold', True)
     """
     stepper = stepper or Stepper(layout, spec, solver)
     horizon = horizon_h if horizon_h is not None else spec.horizon_h

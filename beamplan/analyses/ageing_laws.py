@@ -156,7 +156,7 @@ def resolve_optics(spec: AgeingSpec, layout: Layout) -> dict[str, Law]:
     >>> from beamplan.layout.yamlpos import load_yaml
     >>> from beamplan.layout.ageing import parse_ageing
     >>> lay = load_layout("layouts/two-bay.yaml")
-    >>> spec = parse_ageing(load_yaml("layouts/two-bay.ageing.yaml"))
+    >>> spec = parse_ageing(load_yaml("layouts/ageing/two-bay.ageing.yaml"))
     >>> sorted(resolve_optics(spec, lay))[:3]
     ['a-fold', 'an-fold', 'an-if1']
     """

@@ -109,10 +109,10 @@ def build_model(stepper: Stepper, spec: AgeingSpec, windows_h: Sequence[float],
     >>> from beamplan.layout.loader import load_layout
     >>> from beamplan.layout.yamlpos import load_yaml
     >>> from beamplan.layout.ageing import parse_ageing
-    >>> spec = parse_ageing(load_yaml("layouts/two-bay.ageing.yaml"))
+    >>> spec = parse_ageing(load_yaml("layouts/ageing/two-bay.ageing.yaml"))
     >>> st = Stepper(load_layout("layouts/two-bay.yaml"), spec)
     >>> m = build_model(st, spec, (4383.0,), 8766.0, "cost")
-    >>> len(m.elements), sorted(m.actions["bn-if1"])
+    >>> len(m.elements), sorted(m.actions["bn-fold"])
     (21, ['clean', 'replace'])
     """
     base = stepper.plan(stepper.new_state())
@@ -185,7 +185,7 @@ def plan_maintenance(layout: Layout, spec: AgeingSpec, *, objective: str | None 
     >>> from beamplan.layout.loader import load_layout
     >>> from beamplan.layout.yamlpos import load_yaml
     >>> from beamplan.layout.ageing import parse_ageing
-    >>> spec = parse_ageing(load_yaml("layouts/two-bay.ageing.yaml"))
+    >>> spec = parse_ageing(load_yaml("layouts/ageing/two-bay.ageing.yaml"))
     >>> p = plan_maintenance(load_layout("layouts/two-bay.yaml"), spec,
     ...                      horizon_h=2 * 8766.0, step_h=2000.0)
     >>> p.feasible, p.check_ok, len(p.actions) > 0

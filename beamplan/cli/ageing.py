@@ -34,7 +34,7 @@ def _ageing(args: argparse.Namespace) -> int:
         spec = parse_ageing(doc, in_layout=True)
     else:
         raise UsageError(f"{args.layout} has no 'ageing:' section; give an ageing file, e.g. "
-                         "layouts/two-bay.ageing.yaml (see docs/ageing.md)")
+                         "layouts/ageing/two-bay.ageing.yaml (see docs/ageing.md)")
     from dataclasses import replace
 
     try:
