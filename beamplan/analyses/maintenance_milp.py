@@ -123,7 +123,7 @@ def brute_force(model: MaintenanceModel) -> Schedule | None:
     ...     {("m1", 0, "new", 1): -0.1, ("m1", 0, "new", 2): -0.2,
     ...      ("m1", 1, "clean", 2): -0.1}, {"s": {"m1": 1.0}}, {"s": -0.15})
     >>> brute_force(m)
-    Schedule(chosen=(('m1', 1, 'clean'),), objective_value=5.0)
+    Schedule(chosen=(('m1', 1, 'clean'),), objective_value=5.0, gap=0.0)
     """
     slots = [(i, w) for i in model.elements for w in range(1, len(model.windows_h) + 1)]
     options = [[None, *sorted(model.actions.get(i, {}))] for i, _ in slots]
@@ -151,7 +151,7 @@ def solve(model: MaintenanceModel, forbid: Iterable[Choice] = (),
     ...     {("m1", 0, "new", 1): -0.1, ("m1", 0, "new", 2): -0.2,
     ...      ("m1", 1, "clean", 2): -0.1}, {"s": {"m1": 1.0}}, {"s": -0.15})
     >>> solve(m)
-    Schedule(chosen=(('m1', 1, 'clean'),), objective_value=5.0)
+    Schedule(chosen=(('m1', 1, 'clean'),), objective_value=5.0, gap=0.0)
     >>> solve(m, forbid=[("m1", 1, "clean")]) is None
     True
     """

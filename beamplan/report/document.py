@@ -37,7 +37,8 @@ SIGNIFICANT_DIGITS = 9
 _RATIO_KEYS = frozenset({"headroom", "headroom_factor", "headroom_lost", "best_headroom_factor",
                          "efficiency", "gain", "setting", "base", "case",
                          "settings_stability", "limiting_gain", "lowest_headroom", "gap"})
-_MAP_KEYS = frozenset({"setting", "headroom", "gain", "lowest_headroom"})  # {name: number} maps whose values share the key's kind
+# {name: number} maps whose values share the key's kind
+_MAP_KEYS = frozenset({"setting", "headroom", "gain", "lowest_headroom"})
 
 
 def _decimals(key: str | None) -> int | None:
