@@ -163,7 +163,9 @@ def register(sub: Any) -> None:
     plan.set_defaults(handler=_plan)
 
     from beamplan.cli import analyses, calc, draw, tolerance
+    from beamplan.cli import ageing, analyses, calc, draw
 
+    ageing.register(sub)
     analyses.register(sub)
     draw.register(sub)
     calc.register(sub)

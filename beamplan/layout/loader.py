@@ -205,6 +205,7 @@ def parse_layout(doc: YamlDocument) -> Layout:
     links = _read_beamlines(ctx, top, doc.text.splitlines())
     top.raw("tolerances")  # read by beamplan.layout.tolerances
     top.raw("economics")  # read by beamplan.layout.economics (cost, availability)
+    top.raw("ageing")  # an optional ageing section, read by layout/ageing.py
     top.finish()
     for part in parts:
         if part not in used_parts:

@@ -39,8 +39,10 @@ _RATIO_KEYS = frozenset({"headroom", "headroom_factor", "headroom_lost", "best_h
                          "settings_stability", "probability", "low", "high", "first",
                          "total", "first_conf", "total_conf", "headroom_q05", "headroom_q50",
                          "headroom_q95", "planned_headroom", "interpolation_error",
-                         "exposing", "cost_share", "discount_rate", "full_power_availability"})
-_MAP_KEYS = frozenset({"setting"})  # {name: number} maps whose values share the key's kind
+                         "exposing", "cost_share", "discount_rate", "full_power_availability",
+                         "limiting_gain", "lowest_headroom", "gap"})
+# {name: number} maps whose values share the key's kind
+_MAP_KEYS = frozenset({"setting", "headroom", "gain", "lowest_headroom"})
 
 
 def _decimals(key: str | None) -> int | None:
