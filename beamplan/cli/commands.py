@@ -162,8 +162,7 @@ def register(sub: Any) -> None:
     add_limits_option(plan)
     plan.set_defaults(handler=_plan)
 
-    from beamplan.cli import analyses, calc, draw, tolerance
-    from beamplan.cli import ageing, analyses, calc, draw
+    from beamplan.cli import ageing, analyses, calc, draw, tolerance
 
     ageing.register(sub)
     analyses.register(sub)
