@@ -26,7 +26,7 @@ distributed = pytest.importorskip("distributed")
 def client() -> Iterator[Any]:
     """Two worker processes of one thread each, no dashboard, quiet logs."""
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=None, silence_logs=logging.ERROR) as cluster, \
+                                  dashboard_address=":0", silence_logs=logging.ERROR) as cluster, \
             distributed.Client(cluster) as dask_client:
         yield dask_client
 

@@ -111,7 +111,7 @@ def _dask(address: str, workers: int, progress: TextIO | None) -> Iterator[Execu
             _note(progress, f"starting a local Dask cluster of {workers} worker processes")
             cluster = distributed.LocalCluster(
                 n_workers=workers, threads_per_worker=1, processes=True,
-                dashboard_address=None, silence_logs=logging.ERROR)
+                dashboard_address=":0", silence_logs=logging.ERROR)  # any free port
             client = distributed.Client(cluster)
         else:
             _note(progress, f"connecting to the Dask scheduler at {address}")
