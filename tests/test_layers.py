@@ -9,9 +9,9 @@ import pytest
 
 PACKAGE = pathlib.Path(__file__).resolve().parent.parent / "beamplan"
 # Lowest first; a module may import its own layer and every layer before it.
-ORDER = ["units", "errors", "_pint", "layout", "physics", "network", "optimise", "analyses",
-         "report", "cli"]
-BASE = {"units": 0, "errors": 0, "_pint": 0}  # the foundation shares one rank
+ORDER = ["units", "errors", "_pint", "vocabulary", "layout", "physics", "network", "optimise",
+         "analyses", "report", "cli"]
+BASE = {"units": 0, "errors": 0, "_pint": 0, "vocabulary": 0}  # the foundation shares one rank
 PRESENTATION = ("rich", "matplotlib")
 
 

@@ -18,6 +18,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.planner import MET_RTOL, plan_network
 from beamplan.optimise.result import Plan
 from beamplan.optimise.sizing import Answer, Sizing, size_network
+from beamplan.vocabulary import Goal, Solver
 
 __all__ = ["MAX_CHECKS", "apply_answers", "replan_meets", "what_it_takes"]
 
@@ -68,9 +69,10 @@ def apply_answers(network: Network, answers: tuple[Answer, ...]) -> Network:
     return network.with_nodes(changed)
 
 
-def replan_meets(network: Network, scanners: tuple[str, ...], solver: str = "auto") -> bool:
+def replan_meets(network: Network, scanners: tuple[str, ...],
+                 solver: Solver | str = Solver.AUTO) -> bool:
     """Whether a plan of ``network`` meets the need of every scanner in ``scanners``."""
-    plan = plan_network(network, "min-source", solver)
+    plan = plan_network(network, Goal.MIN_SOURCE, solver)
     return all(plan.scanner(sid).delivered_w >= plan.scanner(sid).need_w * (1 - MET_RTOL)
                for sid in scanners)
 
@@ -84,7 +86,7 @@ def _check(network: Network, answers: tuple[Answer, ...], served: tuple[str, ...
     return replan_meets(apply_answers(network, answers), served, solver)
 
 
-def what_it_takes(network: Network, plan: Plan, solver: str = "auto",
+def what_it_takes(network: Network, plan: Plan, solver: Solver | str = Solver.AUTO,
                   max_checks: int = MAX_CHECKS) -> Sizing:
     """The sizing answers of a plan, each checked by re-planning with it applied.
 

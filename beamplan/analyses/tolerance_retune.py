@@ -29,6 +29,7 @@ from beamplan.optimise.backend import INF
 from beamplan.optimise.goals import DUAL_TOL
 from beamplan.optimise.live import LiveModel
 from beamplan.optimise.planner import MET_RTOL
+from beamplan.vocabulary import Solver
 
 __all__ = ["Entry", "RetuneModel"]
 
@@ -62,7 +63,8 @@ class RetuneModel:
     1.35
     """
 
-    def __init__(self, network: Network, model: ToleranceModel, solver: str = "auto") -> None:
+    def __init__(self, network: Network, model: ToleranceModel,
+                 solver: Solver | str = Solver.AUTO) -> None:
         self.live = LiveModel(network, solver)
         self.network = network
         m = self.live.model

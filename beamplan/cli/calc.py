@@ -130,7 +130,7 @@ def run(args: argparse.Namespace, build: Callable[[], dict[str, Any]]) -> int:
         sys.stdout.write(report.calc_json(document))
         sys.stdout.flush()
     else:
-        from beamplan.cli.commands import _console
+        from beamplan.cli.common import _console
         from beamplan.report.calc_view import calc_renderable
 
         _console().print(calc_renderable(document))

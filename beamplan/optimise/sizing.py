@@ -32,6 +32,7 @@ import numpy as np
 from beamplan.network.graph import Network
 from beamplan.optimise.result import ElementResult, Plan
 from beamplan.optimise.sizing_lp import INF, Limit, SizingLp, build_sizing_lp
+from beamplan.vocabulary import ScannerStatus
 
 __all__ = ["Answer", "Sizing", "size_network"]
 
@@ -292,9 +293,9 @@ def size_network(network: Network, plan: Plan) -> Sizing:
     """
     lp = build_sizing_lp(network)
     served = set(lp.served)
-    short = tuple(s.id for s in plan.scanners if s.status in ("short", "cut off")
-                  and s.id in served)
-    unreachable = tuple(s.id for s in plan.scanners if s.status in ("short", "cut off")
+    failing = (ScannerStatus.SHORT, ScannerStatus.CUT_OFF)
+    short = tuple(s.id for s in plan.scanners if s.status in failing and s.id in served)
+    unreachable = tuple(s.id for s in plan.scanners if s.status in failing
                         and s.id not in served)
     source = _source(lp, short)
     possible, combined, cost = _combined(lp, short) if short else (True, (), 0.0)

@@ -25,6 +25,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
 from beamplan.report.document import signed_percent
 from beamplan.units import format_power
+from beamplan.vocabulary import ScannerStatus
 
 if TYPE_CHECKING:
     from beamplan.report.plots import Picture
@@ -188,13 +189,13 @@ def _box(network: Network, plan: Plan | None, members: list[str], binds: tuple[s
     if node.is_scanner:
         r = plan.scanner(key) if plan else None
         lines = [key, f"need {format_power(node.need_w)}"]
-        if r is None or r.status == "met":
+        if r is None or r.status == ScannerStatus.MET:
             lines += ([f"gets {format_power(r.delivered_w)}, {signed_percent(r.headroom)}"]
                       if r else [])
             return Box(key, (key,), "scanner", tuple(lines), PALETTE["met"], binds=binds)
         lines.append(f"{r.status} {format_power(r.shortfall_w)}, {signed_percent(r.headroom)}")
         return Box(key, (key,), "scanner", tuple(lines), PALETTE["paper"],
-                   "xxxx" if r.status == "cut off" else "////", True, binds)
+                   "xxxx" if r.status == ScannerStatus.CUT_OFF else "////", True, binds)
     e = got.get(key)
     kind = node.kind + (f", gain {node.gain_max:.3f}" if node.behaviour in (
         Behaviour.GAIN, Behaviour.COMBINE) else "" if node.behaviour is not Behaviour.RANGE

@@ -24,6 +24,7 @@ from beamplan.report.diagram import PALETTE, diagram_picture
 from beamplan.report.document import signed_percent
 from beamplan.report.plots import Picture, headroom_chart, losses_chart
 from beamplan.units import format_power
+from beamplan.vocabulary import ScannerStatus
 
 __all__ = ["CSS", "FAMILIES", "facts", "figure", "inline_svg", "page", "pct", "plan_html", "table"]
 
@@ -140,12 +141,13 @@ def _setting(e: ElementResult) -> str:
 def _scanners(plan: Plan) -> str:
     rows = [[s.id, format_power(s.need_w), format_power(s.delivered_w), pct(s.headroom),
              "-" if s.max_w is None else format_power(s.max_w), str(s.priority),
-             s.status if s.status == "met" else f"{s.status}: {format_power(s.shortfall_w)}"]
+             s.status if s.status == ScannerStatus.MET
+             else f"{s.status}: {format_power(s.shortfall_w)}"]
             for s in plan.scanners]
     out = [table("Power at each scanner's intermediate focus (IF)", ["scanner", "need",
                  "delivered", "headroom", "max_power", "priority", "status"], rows,
                  (1, 2, 3, 4, 5))]
-    short = [s for s in plan.scanners if s.status != "met"]
+    short = [s for s in plan.scanners if s.status != ScannerStatus.MET]
     if short:
         out.append("<h3>Why scanners fall short</h3>\n<ul>" + "".join(
             f"<li><strong>{escape(s.id)}</strong> is {escape(s.status)}, "

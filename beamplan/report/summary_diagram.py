@@ -44,6 +44,7 @@ from beamplan.report.diagram import (
 )
 from beamplan.report.document import signed_percent
 from beamplan.units import format_power
+from beamplan.vocabulary import ScannerStatus
 
 if TYPE_CHECKING:
     from beamplan.report.plots import Picture
@@ -207,7 +208,7 @@ def _fold(network: Network, plan: Plan | None, kids: dict[str | None, list[str]]
                 worst_headroom=worst.headroom if worst else None,
                 worst_scanner=worst.id if worst else None,
                 hottest_use=hottest[0] if hottest else None, hottest=hottest[1] if hottest
-                else None, short=sum(1 for r in got if r.status != "met"))
+                else None, short=sum(1 for r in got if r.status != ScannerStatus.MET))
 
 
 def _fold_box(network: Network, fold: Fold) -> Box:
