@@ -109,6 +109,7 @@ class Family(Word):
     AVAILABLE = "available"
     DEMAND = "demand"
     MAX_POWER = "max-power"
+    DEVIATION = "deviation"
 
 
 @dataclass(frozen=True)
@@ -123,6 +124,9 @@ class FamilyInfo:
         The short label beside a box of the diagram, or "" when never binding.
     meaning
         One sentence for the HTML report's key, or "" when never reported.
+    bound
+        The limit's name in the sizing report (what it takes), or "" when
+        sizing never relaxes it.
     per_element
         True when the bound is a fraction of the element's incident power (a
         share or a transmission), so its price is per percentage point, not per W.
@@ -131,35 +135,43 @@ class FamilyInfo:
     words: str
     label: str = ""
     meaning: str = ""
+    bound: str = ""
     per_element: bool = False
 
 
 #: Every family, with its wording; the reported ones carry a label and a meaning.
 FAMILIES: dict[Family, FamilyInfo] = {
     Family.HEAT: FamilyInfo(
-        "heat limit", "heat limit", "an element absorbs as much as its heat limit allows"),
+        "heat limit", "heat limit", "an element absorbs as much as its heat limit allows",
+        "heat limit"),
     Family.AVAILABLE: FamilyInfo(
         "available power", "all power drawn", "a source gives all the power it has"),
     Family.MAX_POWER: FamilyInfo(
-        "max_power", "max_power", "a scanner takes as much as its max_power accepts"),
+        "max_power", "max_power", "a scanner takes as much as its max_power accepts",
+        "max_power"),
     Family.SHARE_LOW: FamilyInfo(
         "lower share bound", "lowest share",
-        "a splitter output is at the lower end of its share range", per_element=True),
+        "a splitter output is at the lower end of its share range", "share, lower bound",
+        per_element=True),
     Family.SHARE_HIGH: FamilyInfo(
         "upper share bound", "highest share",
-        "a splitter output is at the upper end of its share range", per_element=True),
+        "a splitter output is at the upper end of its share range", "share, upper bound",
+        per_element=True),
     Family.RANGE_LOW: FamilyInfo(
         "lowest transmission", "lowest transmission",
-        "an attenuator is at its lowest transmission", per_element=True),
+        "an attenuator is at its lowest transmission", "transmission, lower bound",
+        per_element=True),
     Family.RANGE_HIGH: FamilyInfo(
         "highest transmission", "highest transmission",
-        "an attenuator is at its highest transmission", per_element=True),
+        "an attenuator is at its highest transmission", "transmission, upper bound",
+        per_element=True),
     Family.DEMAND: FamilyInfo(
         "need", "need", "a scanner gets exactly its need, and that need holds the goal back"),
     Family.BALANCE: FamilyInfo("power balance"),
     Family.SHARE_SUM: FamilyInfo("shares add up to one"),
     Family.SHARE_OUT: FamilyInfo("splitter output"),
-    Family.SOURCE: FamilyInfo("source power"),
+    Family.SOURCE: FamilyInfo("source power", bound="source power"),
+    Family.DEVIATION: FamilyInfo("deviation from the steady shares"),
 }
 
 

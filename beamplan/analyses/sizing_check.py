@@ -18,7 +18,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.planner import MET_RTOL, plan_network
 from beamplan.optimise.result import Plan
 from beamplan.optimise.sizing import Answer, Sizing, size_network
-from beamplan.vocabulary import Goal, Solver
+from beamplan.vocabulary import Family, Goal, Solver
 
 __all__ = ["MAX_CHECKS", "apply_answers", "replan_meets", "what_it_takes"]
 
@@ -29,18 +29,18 @@ def _changed(node: Node, answer: Answer) -> Node:
     value = answer.needed
     assert value is not None
     family = answer.family
-    if family == "source":
+    if family == Family.SOURCE:
         extra = dict(answer.parts).get(node.id)
         return replace(node, available_w=value if extra is None else node.available_w + extra)
-    if family == "heat":
+    if family == Family.HEAT:
         return replace(node, heat_limit_w=value)
-    if family == "max-power":
+    if family == Family.MAX_POWER:
         return replace(node, max_w=value)
-    if family == "range-high":
+    if family == Family.RANGE_HIGH:
         return replace(node, gain_max=value)
-    if family == "range-low":
+    if family == Family.RANGE_LOW:
         return replace(node, gain_min=value)
-    high = family == "share-high"
+    high = family == Family.SHARE_HIGH
     ports = tuple((replace(p, fraction_max=value) if high else replace(p, fraction_min=value))
                   if p.name == answer.port else p for p in node.ports)
     return replace(node, ports=ports)
@@ -81,7 +81,7 @@ def _check(network: Network, answers: tuple[Answer, ...], served: tuple[str, ...
            solver: str) -> bool | None:
     if any(a.needed is None for a in answers) or not answers:
         return None
-    if any(a.family == "source" and not a.parts and "," in a.element for a in answers):
+    if any(a.family == Family.SOURCE and not a.parts and "," in a.element for a in answers):
         return None  # a margin shared by several sources: no single change to apply
     return replan_meets(apply_answers(network, answers), served, solver)
 

@@ -22,6 +22,7 @@ from beamplan.optimise.goals import run_goal
 from beamplan.optimise.lp import LpModel, build_lp
 from beamplan.optimise.planner import solve_model
 from beamplan.optimise.result import Plan
+from beamplan.vocabulary import Family
 
 __all__ = ["CaseSummary", "LiveModel"]
 
@@ -133,7 +134,7 @@ class LiveModel:
                 for col in self._in_cols(node.id):
                     self._coefficient(row, col, on)
         elif b_ is Behaviour.RANGE:
-            for family in ("range-low", "range-high"):
+            for family in (Family.RANGE_LOW, Family.RANGE_HIGH):
                 for row in self._rows_of(node.id, family):
                     for col in self._in_cols(node.id):
                         self._coefficient(row, col, on)

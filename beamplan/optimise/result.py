@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from beamplan.errors import InternalError
 from beamplan.network.behaviour import Behaviour, Port
 from beamplan.network.graph import Network
-from beamplan.vocabulary import ScannerStatus
+from beamplan.vocabulary import Family, ScannerStatus
 
 __all__ = [
     "Binding",
@@ -113,7 +113,7 @@ class Binding:
     """A constraint that binds, with its shadow price in the goal's terms."""
 
     constraint: str
-    family: str
+    family: Family
     subject: str
     description: str
     shadow_price: float

@@ -24,7 +24,7 @@ from beamplan.optimise.goals import GoalOutcome, run_goal
 from beamplan.optimise.lp import LpModel, Row, build_lp
 from beamplan.optimise.planner import finish_plan
 from beamplan.optimise.result import Plan
-from beamplan.vocabulary import Goal, Solver
+from beamplan.vocabulary import Family, Goal, Solver
 
 __all__ = ["Setting", "steady_plan"]
 
@@ -52,9 +52,9 @@ def _deviation_rows(model: LpModel, base: Mapping[str, Setting]) -> list[int]:
             dev = model.var(col)
             tag = f"{i:05d}_{k:02d}"
             model.add_row(dev - (var - ratio * inflow) >= 0,
-                          Row(f"zdp{tag}", "deviation", node.id, port))
+                          Row(f"zdp{tag}", Family.DEVIATION, node.id, port))
             model.add_row(dev + (var - ratio * inflow) >= 0,
-                          Row(f"zdm{tag}", "deviation", node.id, port))
+                          Row(f"zdm{tag}", Family.DEVIATION, node.id, port))
             columns.append(col)
     return columns
 

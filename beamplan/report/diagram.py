@@ -25,7 +25,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
 from beamplan.report.document import signed_percent
 from beamplan.units import format_power
-from beamplan.vocabulary import ScannerStatus
+from beamplan.vocabulary import FAMILIES, ScannerStatus
 
 if TYPE_CHECKING:
     from beamplan.report.plots import Picture
@@ -45,9 +45,8 @@ PALETTE = {
 #: (palette key, words, lowest use) of each heat band: absorbed ÷ heat limit.
 HEAT_BANDS = (("heat-1", "under 50 %", 0.0), ("heat-2", "50–80 %", 0.5),
               ("heat-3", "80 % to just under the limit", 0.8), ("heat-4", "at the limit", 1 - 1e-6))
-BINDS = {"heat": "heat limit", "available": "all power drawn", "max-power": "max_power",
-         "share-low": "lowest share", "share-high": "highest share", "demand": "need",
-         "range-low": "lowest transmission", "range-high": "highest transmission"}
+#: The label of each binding family beside a box (from the vocabulary's registry).
+BINDS: dict[str, str] = {f: info.label for f, info in FAMILIES.items() if info.label}
 
 FONT_PT = 6.5
 LINE_IN = FONT_PT * 1.3 / 72      # one text line, inches

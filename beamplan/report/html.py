@@ -24,21 +24,13 @@ from beamplan.report.diagram import PALETTE, diagram_picture
 from beamplan.report.document import signed_percent
 from beamplan.report.plots import Picture, headroom_chart, losses_chart
 from beamplan.units import format_power
-from beamplan.vocabulary import ScannerStatus
+from beamplan.vocabulary import FAMILIES as FAMILY_INFO
+from beamplan.vocabulary import ScannerStatus, reported_families
 
 __all__ = ["CSS", "FAMILIES", "facts", "figure", "inline_svg", "page", "pct", "plan_html", "table"]
 
 #: What each family of binding constraint means, in words.
-FAMILIES = {
-    "heat": "an element absorbs as much as its heat limit allows",
-    "available": "a source gives all the power it has",
-    "max-power": "a scanner takes as much as its max_power accepts",
-    "share-low": "a splitter output is at the lower end of its share range",
-    "share-high": "a splitter output is at the upper end of its share range",
-    "range-low": "an attenuator is at its lowest transmission",
-    "range-high": "an attenuator is at its highest transmission",
-    "demand": "a scanner gets exactly its need, and that need holds the goal back",
-}
+FAMILIES: dict[str, str] = {f: FAMILY_INFO[f].meaning for f in reported_families()}
 
 CSS = string.Template("""
 :root { color-scheme: light; }
