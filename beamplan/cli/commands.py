@@ -116,11 +116,11 @@ def register(sub: Any) -> None:
     add_limits_option(plan)
     plan.set_defaults(handler=_plan)
 
-    from beamplan.cli import analyses, calc, draw, tolerance
+    from beamplan.cli import analyses, calc, calc_tools, draw, tolerance
 
     analyses.register(sub)
     draw.register(sub)
-    calc.register(sub)
+    calc.register(sub, calc_tools.add_demand, calc_tools.add_undulator)
     tolerance.register(sub)
     from beamplan.cli import cost
 

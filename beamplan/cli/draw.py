@@ -92,13 +92,13 @@ def _draw(args: argparse.Namespace) -> int:
 def _picture(network: Any, plan: Any, fmt: str, summary: bool, group_chains: bool) -> bytes:
     if summary:
         from beamplan.report.dot import summary_dot
-        from beamplan.report.summary_diagram import summary_picture
+        from beamplan.report.summary_draw import summary_picture
 
         if fmt == "dot":
             return summary_dot(network, plan).encode("utf-8")
         return summary_picture(network, plan).data(fmt)
-    from beamplan.report.diagram import diagram_picture
     from beamplan.report.dot import diagram_dot
+    from beamplan.report.draw import diagram_picture
 
     if fmt == "dot":
         return diagram_dot(network, plan, group_chains=group_chains).encode("utf-8")

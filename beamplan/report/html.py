@@ -20,8 +20,9 @@ from beamplan.network.behaviour import GIVEN
 from beamplan.network.graph import Network
 from beamplan.optimise.result import ElementResult, Plan
 from beamplan.report import CAUTION
-from beamplan.report.diagram import PALETTE, diagram_picture
 from beamplan.report.document import signed_percent
+from beamplan.report.draw import diagram_picture
+from beamplan.report.palette import PALETTE
 from beamplan.report.plots import Picture, headroom_chart, losses_chart
 from beamplan.units import format_power
 from beamplan.vocabulary import FAMILIES as FAMILY_INFO
@@ -281,7 +282,8 @@ def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
         summary.append(("wall plug", f"{plan.electrical_per_delivered:.0f} kW electrical per "
                                      "kW delivered at the IF"))
     settings = [e for e in plan.elements if e.setting is not None]
-    from beamplan.report.summary_diagram import SCALE_SCANNERS, at_scale, summary_picture
+    from beamplan.report.summary_diagram import SCALE_SCANNERS, at_scale
+    from beamplan.report.summary_draw import summary_picture
 
     folded = at_scale(network) if detail is None else not detail
     picture = summary_picture(network, plan) if folded else \

@@ -23,9 +23,9 @@ from collections.abc import Callable, Iterable, Sequence
 from typing import TYPE_CHECKING, Any, ParamSpec
 
 from beamplan.optimise.result import Plan
-from beamplan.report.diagram import PALETTE
 from beamplan.report.document import signed_percent
 from beamplan.report.files import write_atomic
+from beamplan.report.palette import PALETTE
 from beamplan.units import format_power
 from beamplan.vocabulary import ScannerStatus
 
