@@ -14,6 +14,8 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
+from beamplan.vocabulary import Goal, Solver
+
 __version__ = "0.1.0"
 __all__ = ["__version__", "load", "plan"]
 
@@ -48,7 +50,7 @@ def load(path: str) -> Layout:
     return layout
 
 
-def plan(layout: Any, goal: str = "headroom", solver: str = "auto") -> Plan:
+def plan(layout: Any, goal: Goal | str = Goal.HEADROOM, solver: Solver | str = Solver.AUTO) -> Plan:
     """Plan a layout (a :class:`~beamplan.layout.model.Layout`, network or path).
 
     Parameters

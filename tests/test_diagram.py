@@ -32,10 +32,10 @@ from beamplan.report.diagram import (
     WIDTH_MIN_PT,
     _spread,
     diagram_model,
-    diagram_picture,
     link_powers,
 )
 from beamplan.report.dot import diagram_dot
+from beamplan.report.draw import diagram_picture
 from beamplan.report.plots import (
     CASE_STYLES,
     MAX_PIXELS,

@@ -22,6 +22,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.planner import plan_network
 from beamplan.optimise.result import Plan
 from beamplan.report import summary_diagram as sd
+from beamplan.report.summary_draw import summary_picture
 from tests.conftest import network_from_text
 from tests.perf.campus import campus_yaml
 
@@ -141,7 +142,7 @@ def test_the_summary_picture_is_small_and_names_its_boxes(tmp_path: pathlib.Path
     from PIL import Image
 
     network, plan = campus(200)
-    picture = sd.summary_picture(network, plan)
+    picture = summary_picture(network, plan)
     svg = picture.svg()
     assert "bay-7-m1 and below" in svg and "s7-3-f1" not in svg
     path = tmp_path / "s.png"

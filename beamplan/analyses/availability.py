@@ -26,6 +26,7 @@ from beamplan.layout.model import Layout
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
 from beamplan.physics.reliability import availability
+from beamplan.vocabulary import Goal, Solver
 
 __all__ = ["AvailabilityReport", "Component", "Improvement", "ScannerAvailability", "State",
            "components_of", "enumerate_states", "expected_loss", "plan_state",
@@ -226,7 +227,7 @@ def expected_loss(states: Sequence[State], switching_time_h: float, hours: float
 
 
 def run_availability(layout: Layout, network: Network, econ: Economics, *,
-                     goal: str = "headroom", solver: str = "auto",
+                     goal: Goal | str = Goal.HEADROOM, solver: Solver | str = Solver.AUTO,
                      executor: Executor | None = None,
                      progress: Callable[[int, int], None] | None = None,
                      exact: bool = False) -> AvailabilityReport:
@@ -292,8 +293,8 @@ def run_availability(layout: Layout, network: Network, econ: Economics, *,
 
 
 def plan_state(network: Network, failed: tuple[str, ...], models: dict[str, Throughput],
-               exposing: dict[str, float], base_w: dict[str, float], goal: str = "headroom",
-               solver: str = "auto") -> State:
+               exposing: dict[str, float], base_w: dict[str, float],
+               goal: Goal | str = Goal.HEADROOM, solver: Solver | str = Solver.AUTO) -> State:
     """Plan one state on this process's live model (for states the enumeration left out).
 
     Examples
@@ -305,5 +306,5 @@ def plan_state(network: Network, failed: tuple[str, ...], models: dict[str, Thro
     >>> plan_state(net, ("t1", "t2"), models, {s: 1.0 for s in models}, {}).after[0][0]
     'litho-p1'
     """
-    result = run_chunk(network, "screen" if goal == "headroom" else goal, solver, [failed])[0]
+    result = run_chunk(network, Goal.SCREEN if goal == Goal.HEADROOM else goal, solver, [failed])[0]
     return _state(result, failed, 0.0, {}, models, exposing, base_w)

@@ -14,6 +14,7 @@ from beamplan.network.behaviour import Behaviour
 from beamplan.network.graph import Network, build_network
 from beamplan.optimise.planner import MET_RTOL, plan_network
 from beamplan.optimise.result import Plan
+from beamplan.vocabulary import Goal, ScannerStatus, Solver
 
 __all__ = ["CaseOutcome", "Comparison", "SettingMove", "compare_cases", "settings_moves"]
 
@@ -105,8 +106,8 @@ def settings_moves(base: Plan, case: Plan, out_of_service: Collection[str] = ()
 def _service(plan: Plan) -> tuple[int, int, float, float]:
     """Smaller is better: fewer cut off, fewer short, a higher lowest factor of the
     scanners still served, more power delivered (rounded against round-off)."""
-    serving = [s for s in plan.scanners if s.status != "out of service"]
-    cut = [s for s in serving if s.status == "cut off"]
+    serving = [s for s in plan.scanners if s.status != ScannerStatus.OUT_OF_SERVICE]
+    cut = [s for s in serving if s.status == ScannerStatus.CUT_OFF]
     short = [s for s in serving if s.delivered_w < s.need_w * (1 - MET_RTOL)]
     served = min((s.delivered_w / s.need_w for s in serving if s not in cut), default=0.0)
     return (len(cut), len(short), -round(served, 7), -round(plan.delivered_w, 3))
@@ -131,9 +132,9 @@ def _switched_network(network: Network, goal: str, solver: str
     return moved({**current, **{m.switch: m.after for m in moves}}), moves
 
 
-def compare_cases(base: Layout, cases: dict[str, Case], *, goal: str = "headroom",
+def compare_cases(base: Layout, cases: dict[str, Case], *, goal: Goal | str = Goal.HEADROOM,
                   base_doc: YamlDocument | None = None, steady: float | None = None,
-                  solver: str = "auto", names: list[str] | None = None,
+                  solver: Solver | str = Solver.AUTO, names: list[str] | None = None,
                   steady_switches: bool = False) -> Comparison:
     """Plan ``base`` and each case with the same goal.
 

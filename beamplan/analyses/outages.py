@@ -29,6 +29,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.live import CaseSummary, LiveModel
 from beamplan.optimise.planner import MET_RTOL
 from beamplan.optimise.result import Plan
+from beamplan.vocabulary import Goal, ScannerStatus, Solver
 
 __all__ = ["OutageResult", "OutageView", "SweepReport", "models_built", "outage_cases",
            "run_chunk", "run_packed", "run_sweep"]
@@ -213,7 +214,7 @@ def _impact(base: CaseSummary, case: CaseSummary, network: Network) -> OutageVie
     total, base_total = sum(case.delivered_w.values()), sum(base.delivered_w.values())
     return OutageView(factor, base_factor - factor, case.source_used_w, total,
                       base_total - total, tuple(losing), tuple(short), tuple(cut),
-                      "short" if short else "met", served)
+                      ScannerStatus.SHORT if short else ScannerStatus.MET, served)
 
 
 def _service_key(view: OutageView) -> tuple[int, int, float, float]:
@@ -318,8 +319,9 @@ def _cross_check(results: Iterable[OutageResult], spof: dict[str, tuple[str, ...
     return tuple(problems)
 
 
-def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str = "headroom",
-              solver: str = "auto", executor: Executor | None = None, chunk_size: int = 0,
+def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *,
+              goal: Goal | str = Goal.HEADROOM, solver: Solver | str = Solver.AUTO,
+              executor: Executor | None = None, chunk_size: int = 0,
               progress: Callable[[int, int], None] | None = None,
               exact: bool = False, share: bool = True) -> SweepReport:
     """Re-plan every outage case and rank them by impact.
@@ -350,8 +352,8 @@ def run_sweep(network: Network, cases: Sequence[tuple[str, ...]], *, goal: str =
     ('halo-fel', ())
     """
     base = LiveModel(network, solver).plan(goal)
-    if goal == "headroom" and not exact:
-        goal = "screen"
+    if goal == Goal.HEADROOM and not exact:
+        goal = Goal.SCREEN
     size = chunk_size or max(8, min(200, len(cases) // 16 or 1))
     chunks: list[list[tuple[str, ...]]] = [[]]
     for group in group_cases(network, cases):  # a chain's outages stay in one chunk

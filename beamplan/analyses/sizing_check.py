@@ -18,6 +18,7 @@ from beamplan.network.graph import Network
 from beamplan.optimise.planner import MET_RTOL, plan_network
 from beamplan.optimise.result import Plan
 from beamplan.optimise.sizing import Answer, Sizing, size_network
+from beamplan.vocabulary import Family, Goal, Solver
 
 __all__ = ["MAX_CHECKS", "apply_answers", "replan_meets", "what_it_takes"]
 
@@ -28,18 +29,18 @@ def _changed(node: Node, answer: Answer) -> Node:
     value = answer.needed
     assert value is not None
     family = answer.family
-    if family == "source":
+    if family == Family.SOURCE:
         extra = dict(answer.parts).get(node.id)
         return replace(node, available_w=value if extra is None else node.available_w + extra)
-    if family == "heat":
+    if family == Family.HEAT:
         return replace(node, heat_limit_w=value)
-    if family == "max-power":
+    if family == Family.MAX_POWER:
         return replace(node, max_w=value)
-    if family == "range-high":
+    if family == Family.RANGE_HIGH:
         return replace(node, gain_max=value)
-    if family == "range-low":
+    if family == Family.RANGE_LOW:
         return replace(node, gain_min=value)
-    high = family == "share-high"
+    high = family == Family.SHARE_HIGH
     ports = tuple((replace(p, fraction_max=value) if high else replace(p, fraction_min=value))
                   if p.name == answer.port else p for p in node.ports)
     return replace(node, ports=ports)
@@ -68,9 +69,10 @@ def apply_answers(network: Network, answers: tuple[Answer, ...]) -> Network:
     return network.with_nodes(changed)
 
 
-def replan_meets(network: Network, scanners: tuple[str, ...], solver: str = "auto") -> bool:
+def replan_meets(network: Network, scanners: tuple[str, ...],
+                 solver: Solver | str = Solver.AUTO) -> bool:
     """Whether a plan of ``network`` meets the need of every scanner in ``scanners``."""
-    plan = plan_network(network, "min-source", solver)
+    plan = plan_network(network, Goal.MIN_SOURCE, solver)
     return all(plan.scanner(sid).delivered_w >= plan.scanner(sid).need_w * (1 - MET_RTOL)
                for sid in scanners)
 
@@ -79,12 +81,12 @@ def _check(network: Network, answers: tuple[Answer, ...], served: tuple[str, ...
            solver: str) -> bool | None:
     if any(a.needed is None for a in answers) or not answers:
         return None
-    if any(a.family == "source" and not a.parts and "," in a.element for a in answers):
+    if any(a.family == Family.SOURCE and not a.parts and "," in a.element for a in answers):
         return None  # a margin shared by several sources: no single change to apply
     return replan_meets(apply_answers(network, answers), served, solver)
 
 
-def what_it_takes(network: Network, plan: Plan, solver: str = "auto",
+def what_it_takes(network: Network, plan: Plan, solver: Solver | str = Solver.AUTO,
                   max_checks: int = MAX_CHECKS) -> Sizing:
     """The sizing answers of a plan, each checked by re-planning with it applied.
 

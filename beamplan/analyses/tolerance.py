@@ -24,6 +24,7 @@ from beamplan.analyses.tolerance_stats import SobolIndices, sobol_indices
 from beamplan.network.graph import Network
 from beamplan.optimise.planner import MET_RTOL
 from beamplan.optimise.result import Plan
+from beamplan.vocabulary import ScannerStatus, Solver
 
 __all__ = ["CHUNK", "EDGES", "MODES", "SAMPLERS", "Tally", "ToleranceRun", "run_tolerance",
            "uniforms"]
@@ -208,7 +209,7 @@ class ToleranceRun:
 
 def run_tolerance(network: Network, plan: Plan, model: ToleranceModel, *, samples: int = 20000,
                   mode: str = "fixed", sampler: str = "random", seed: int = 0,
-                  solver: str = "auto", executor: Executor | None = None,
+                  solver: Solver | str = Solver.AUTO, executor: Executor | None = None,
                   progress: Callable[[int, int], None] | None = None,
                   sensitivity_samples: int = 512, width: float | None = None) -> ToleranceRun:
     """Sample the tolerances and tally how often each scanner (and all) meet their need.
@@ -245,7 +246,7 @@ def run_tolerance(network: Network, plan: Plan, model: ToleranceModel, *, sample
     job = _Job(network, plan, model, mode, sampler, seed, solver)
     chunk = CHUNK if mode == "fixed" else 256
     starts = [(s, min(chunk, samples - s)) for s in range(0, samples, chunk)]
-    serving = [s for s in plan.scanners if s.status != "out of service"]
+    serving = [s for s in plan.scanners if s.status != ScannerStatus.OUT_OF_SERVICE]
     total = tally(np.zeros((0, len(serving))))
     interrupted = False
     try:

@@ -23,6 +23,7 @@ from beamplan.analyses.tolerance_model import Knob, ToleranceModel
 from beamplan.network.behaviour import Behaviour
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
+from beamplan.vocabulary import ScannerStatus
 
 __all__ = ["FixedPaths", "fixed_paths"]
 
@@ -205,7 +206,7 @@ def fixed_paths(network: Network, plan: Plan, model: ToleranceModel) -> FixedPat
             column[Knob(k.node, "complement", k.port)] = len(model.columns) + len(complements)
             complements.append((model.knob_column[i], share))
     ncols = len(model.columns) + len(complements)
-    scanners = [s for s in plan.scanners if s.status != "out of service"]
+    scanners = [s for s in plan.scanners if s.status != ScannerStatus.OUT_OF_SERVICE]
     p0: list[float] = []
     owners: list[int] = []
     rows: list[np.ndarray] = []

@@ -29,6 +29,7 @@ from beamplan.optimise.backend import INF
 from beamplan.optimise.goals import DUAL_TOL
 from beamplan.optimise.live import LiveModel
 from beamplan.optimise.planner import MET_RTOL
+from beamplan.vocabulary import Family, Solver
 
 __all__ = ["Entry", "RetuneModel"]
 
@@ -62,7 +63,8 @@ class RetuneModel:
     1.35
     """
 
-    def __init__(self, network: Network, model: ToleranceModel, solver: str = "auto") -> None:
+    def __init__(self, network: Network, model: ToleranceModel,
+                 solver: Solver | str = Solver.AUTO) -> None:
         self.live = LiveModel(network, solver)
         self.network = network
         m = self.live.model
@@ -93,7 +95,7 @@ class RetuneModel:
         out: list[Entry] = []
         col_index = {id(v): i for i, v in enumerate(m.columns)}
         for r, info in enumerate(m.row_info):
-            if info.family in ("source", "available"):
+            if info.family in (Family.SOURCE, Family.AVAILABLE):
                 continue
             node = net.node[info.node]
             by_col = {m.link_col[link.index]: link for link in net.in_links[info.node]}
@@ -105,20 +107,20 @@ class RetuneModel:
                 cols: list[int] = [] if link is None else self._chain(link)
                 heat_col, heat_gain, base = -1, 0.0, float(coef)
                 k = None
-                if link is not None and info.family in ("range-low", "range-high"):
+                if link is not None and info.family in (Family.RANGE_LOW, Family.RANGE_HIGH):
                     k = Knob(node.id, "setting")
-                elif link is not None and info.family in ("share-low", "share-high"):
+                elif link is not None and info.family in (Family.SHARE_LOW, Family.SHARE_HIGH):
                     k = Knob(node.id, "fraction", info.port)
-                elif link is not None and info.family == "balance":
+                elif link is not None and info.family == Family.BALANCE:
                     k = Knob(node.id, "gain")
-                elif info.family == "share-out" and link is None and \
+                elif info.family == Family.SHARE_OUT and link is None and \
                         c == m.share_col.get((node.id, info.port)):
                     k = Knob(node.id, "efficiency", info.port)
-                elif info.family == "heat" and node.behaviour in (Behaviour.GAIN,
+                elif info.family == Family.HEAT and node.behaviour in (Behaviour.GAIN,
                                                                    Behaviour.COMBINE) and link:
                     heat_col = self.column.get(Knob(node.id, "gain"), -1)
                     heat_gain, base = node.gain_max, m.link_coef[link.index]
-                elif info.family == "heat" and node.behaviour is Behaviour.SPLIT:
+                elif info.family == Family.HEAT and node.behaviour is Behaviour.SPLIT:
                     port = next((p for (n, p), sc in m.share_col.items()
                                  if n == node.id and sc == c), None)
                     eff = next(p.efficiency for p in node.ports if p.name == port)

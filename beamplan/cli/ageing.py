@@ -21,7 +21,7 @@ def _ageing(args: argparse.Namespace) -> int:
           [("--csv", args.csv)], inputs)
     if args.plot == STDOUT:
         raise UsageError("--plot writes a picture file; give a file name")
-    from beamplan.cli.commands import _existing_file
+    from beamplan.cli.common import _existing_file
     from beamplan.layout.ageing import duration_h, parse_ageing
     from beamplan.layout.loader import parse_layout
     from beamplan.layout.yamlpos import load_yaml
@@ -99,7 +99,7 @@ def _executor(jobs: int) -> Any:
 
 
 def _outputs(args: argparse.Namespace, runway: Any, plan: Any, illustrative: bool) -> None:
-    from beamplan.cli.commands import _console
+    from beamplan.cli.common import _console
     from beamplan.cli.outputs import STDOUT, emit
     from beamplan.report import ageing_view as view
 

@@ -10,6 +10,7 @@ from typing import TYPE_CHECKING, Any
 from beamplan import __version__
 from beamplan.cli.executors import add_executor_options, executor_from
 from beamplan.errors import ExitCode, UsageError, excerpt
+from beamplan.vocabulary import GOALS, SOLVERS, Goal, ScannerStatus, Solver
 
 if TYPE_CHECKING:
     from beamplan.network.graph import Network
@@ -56,7 +57,7 @@ def _cases(args: argparse.Namespace) -> int:
     from beamplan.analyses.cases import parse_cases
     from beamplan.analyses.changes import command_line_document
     from beamplan.analyses.compare import compare_cases
-    from beamplan.cli.commands import _existing_file
+    from beamplan.cli.common import _existing_file
     from beamplan.layout.limits import LIMITS
     from beamplan.layout.loader import parse_layout
     from beamplan.layout.yamlpos import load_yaml
@@ -77,11 +78,11 @@ def _cases(args: argparse.Namespace) -> int:
         if name not in cases:
             raise UsageError(f"--only {name!r}: no such case; the cases are: "
                              f"{', '.join(cases)}")
-    if args.steady is not None and args.goal != "headroom":
+    if args.steady is not None and args.goal != Goal.HEADROOM:
         raise UsageError("--steady works with --goal headroom")
     if args.steady_switches and args.steady is None:
         raise UsageError("--steady-switches works with --steady")
-    from beamplan.cli.commands import _stages
+    from beamplan.cli.common import _stages
 
     with _stages(args) as stages:
         stages.show(f"planning the base layout and {len(args.only or cases)} case(s)")
@@ -90,7 +91,7 @@ def _cases(args: argparse.Namespace) -> int:
                                    names=args.only or None,
                                    steady_switches=args.steady_switches)
     _outputs(args, "cases", comparison)
-    short = any(c.plan.status == "short" for c in comparison.cases)
+    short = any(c.plan.status == ScannerStatus.SHORT for c in comparison.cases)
     return int(ExitCode.SHORT if short else ExitCode.OK)
 
 
@@ -100,7 +101,7 @@ def _outputs(args: argparse.Namespace, what: str, result: Any,
 
     ``network`` is the network swept (for ``sweep``; ``cases`` has its own in the plans).
     """
-    from beamplan.cli.commands import _console
+    from beamplan.cli.common import _console
     from beamplan.cli.outputs import STDOUT, emit
     from beamplan.report import analyses as rep
 
@@ -133,7 +134,7 @@ def _outputs(args: argparse.Namespace, what: str, result: Any,
 def _sweep(args: argparse.Namespace) -> int:
     _refuse_early(args)
     from beamplan.analyses.outages import outage_cases, run_sweep
-    from beamplan.cli.commands import _load_network, _stages
+    from beamplan.cli.common import _load_network, _stages
     from beamplan.report.progress import progress_bar
 
     with _stages(args) as stages:
@@ -157,18 +158,18 @@ def _sweep(args: argparse.Namespace) -> int:
 
 
 def _common(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("-g", "--goal", choices=("headroom", "min-source", "priority"),
-                        default="headroom", help="the planning goal (default headroom)")
+    parser.add_argument("-g", "--goal", choices=GOALS,
+                        default=Goal.HEADROOM, help="the planning goal (default headroom)")
     parser.add_argument("--json", metavar="PATH", help="write the JSON report ('-' for stdout)")
     parser.add_argument("--csv", metavar="DIR", help="write CSV tables into DIR, created or "
                         "replaced as a whole")
     parser.add_argument("--html", metavar="FILE", help="write a self-contained HTML report "
                         "(tables, chart, provenance) to FILE ('-' for stdout)")
-    parser.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
+    parser.add_argument("--solver", choices=SOLVERS, default=Solver.AUTO,
                         help="LP solver (default: HiGHS in process, CBC if highspy is missing)")
     parser.add_argument("-q", "--quiet", action="store_true", help="no terminal report")
     parser.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
-    from beamplan.cli.commands import add_limits_option
+    from beamplan.cli.common import add_limits_option
 
     add_limits_option(parser)
 

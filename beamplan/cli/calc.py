@@ -130,7 +130,7 @@ def run(args: argparse.Namespace, build: Callable[[], dict[str, Any]]) -> int:
         sys.stdout.write(report.calc_json(document))
         sys.stdout.flush()
     else:
-        from beamplan.cli.commands import _console
+        from beamplan.cli.common import _console
         from beamplan.report.calc_view import calc_renderable
 
         _console().print(calc_renderable(document))
@@ -306,8 +306,12 @@ def _scan_options(p: Any, steps_help: str) -> None:
     p.add_argument("--steps", metavar="N", help=steps_help)
 
 
-def register(sub: Any) -> None:
+def register(sub: Any, *more: Callable[[Any], None]) -> None:
     """Add the ``calc`` command group and its calculators to an argparse subparsers object.
+
+    ``more`` add further calculators to the group (the tool calculators of
+    :mod:`beamplan.cli.calc_tools`, which build on this module's helpers and so
+    are passed in rather than imported here).
 
     Examples
     --------
@@ -317,8 +321,6 @@ def register(sub: Any) -> None:
     >>> args.calculator, args.temperature
     ('drift', None)
     """
-    from beamplan.cli.calc_tools import add_demand, add_undulator
-
     group = sub.add_parser("calc", help="stand-alone physics calculators",
                            description="Stand-alone calculators for grazing mirrors, multilayer "
                            "stacks, gas-filled drifts, scanner demand and undulator resonance. "
@@ -389,8 +391,8 @@ def register(sub: Any) -> None:
     p.add_argument("--wavelength", metavar="LENGTH", help="default 13.5nm")
     _scan_options(p, steps)
 
-    add_demand(calcs)
-    add_undulator(calcs)
+    for add in more:
+        add(calcs)
 
     for old, new in RENAMED.items():
         calcs.add_parser(old, add_help=False).renamed = new

@@ -3,67 +3,21 @@
 from __future__ import annotations
 
 import argparse
-import os
 import sys
 from typing import Any
 
 from beamplan import __version__
-from beamplan.errors import ExitCode, UsageError
+from beamplan.cli.common import (
+    _console,
+    _load_network,
+    _print_warnings,
+    _stages,
+    add_limits_option,
+)
+from beamplan.errors import ExitCode
+from beamplan.vocabulary import GOALS, SOLVERS, Goal, Solver
 
 __all__ = ["register"]
-
-GOALS = ("headroom", "min-source", "priority")
-
-
-def _console(stream: Any = None) -> Any:
-    from beamplan.report.console import make_console
-
-    return make_console(stream or sys.stdout)
-
-
-def _stages(args: argparse.Namespace) -> Any:
-    """What a long command is doing, on stderr when it is a terminal and not ``-q``."""
-    from beamplan.report.progress import progress_stages
-
-    return progress_stages(sys.stderr, quiet=bool(getattr(args, "quiet", False)))
-
-
-def _existing_file(path: str) -> str:
-    if not os.path.isfile(path):
-        raise UsageError(f"no such layout file: {path!r}")
-    return path
-
-
-def _load_network(path: str, limits: str = "standard") -> Any:
-    from beamplan.layout.limits import LIMITS
-    from beamplan.layout.loader import load_layout
-    from beamplan.network.graph import build_network
-
-    return build_network(load_layout(_existing_file(path), LIMITS[limits]))
-
-
-def add_limits_option(parser: argparse.ArgumentParser) -> None:
-    """The ``--limits`` option of every command that reads a layout."""
-    parser.add_argument("--limits", choices=("standard", "large"), default="standard",
-                        help="input size limits: standard (default; files up to 8 MB, "
-                        "300,000 YAML nodes) or large (128 MB, 5,000,000 nodes) for a very "
-                        "large campus; see docs/layout-format.md")
-
-
-WARNINGS_PER_KIND = 5
-
-
-def _print_warnings(network: Any, every: bool = False) -> None:
-    """Warnings to stderr; past a few of one kind, a count (``check --all`` shows all)."""
-    shown: dict[str, int] = {}
-    for warning in network.warnings:
-        shown[warning.code] = shown.get(warning.code, 0) + 1
-        if every or shown[warning.code] <= WARNINGS_PER_KIND:
-            sys.stderr.write(warning.format() + "\n")
-    for code, count in shown.items():
-        if not every and count > WARNINGS_PER_KIND:
-            sys.stderr.write(f"... and {count - WARNINGS_PER_KIND} more warnings like these "
-                             f"({code}); 'beamplan check --all' lists every one\n")
 
 
 def _check(args: argparse.Namespace) -> int:
@@ -140,7 +94,7 @@ def register(sub: Any) -> None:
                           "headroom, heat loads, losses and binding constraints. Exit 0 when "
                           "every need is met, 3 when some scanner falls short.")
     plan.add_argument("layout", help="the layout file (YAML)")
-    plan.add_argument("-g", "--goal", choices=GOALS, default="headroom",
+    plan.add_argument("-g", "--goal", choices=GOALS, default=Goal.HEADROOM,
                       help="headroom (default): lift every scanner's headroom, lowest first; "
                       "min-source: least source power that meets every need; priority: serve "
                       "tier 1 first, then tier 2, ...")
@@ -149,7 +103,7 @@ def register(sub: Any) -> None:
                       "created or replaced as a whole")
     plan.add_argument("--html", metavar="FILE", help="write a self-contained HTML report "
                       "(tables, diagram, plots, provenance) to FILE ('-' for stdout)")
-    plan.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
+    plan.add_argument("--solver", choices=SOLVERS, default=Solver.AUTO,
                       help="LP solver (default: HiGHS in process, CBC if highspy is missing)")
     plan.add_argument("--brief", action="store_true", help="leave out the element table")
     plan.add_argument("--what-it-takes", action="store_true",
@@ -162,12 +116,12 @@ def register(sub: Any) -> None:
     add_limits_option(plan)
     plan.set_defaults(handler=_plan)
 
-    from beamplan.cli import ageing, analyses, calc, draw, tolerance
+    from beamplan.cli import ageing, analyses, calc, calc_tools, draw, tolerance
 
     ageing.register(sub)
     analyses.register(sub)
     draw.register(sub)
-    calc.register(sub)
+    calc.register(sub, calc_tools.add_demand, calc_tools.add_undulator)
     tolerance.register(sub)
     from beamplan.cli import cost
 

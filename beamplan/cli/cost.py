@@ -9,6 +9,7 @@ from typing import Any
 
 from beamplan import __version__
 from beamplan.errors import ExitCode, UsageError
+from beamplan.vocabulary import GOALS, SOLVERS, Goal, Solver
 
 __all__ = ["register"]
 
@@ -24,7 +25,7 @@ def _executor(jobs: int) -> Any:
 
 
 def _load(path: str, economics: str | None) -> tuple[Any, Any, Any]:
-    from beamplan.cli.commands import _existing_file
+    from beamplan.cli.common import _existing_file
     from beamplan.layout.economics import check_against, load_economics
     from beamplan.layout.loader import load_layout
     from beamplan.network.graph import build_network
@@ -79,7 +80,7 @@ def _interrupted(report: Any) -> None:
 
 def _cost(args: argparse.Namespace) -> int:
     from beamplan.analyses.cost import cost_of
-    from beamplan.cli.commands import _console
+    from beamplan.cli.common import _console
     from beamplan.cli.outputs import STDOUT, check, emit
     from beamplan.optimise.planner import plan_network
     from beamplan.report import cost_view as view
@@ -146,7 +147,7 @@ def _cost(args: argparse.Namespace) -> int:
 
 
 def _availability(args: argparse.Namespace) -> int:
-    from beamplan.cli.commands import _console
+    from beamplan.cli.common import _console
     from beamplan.cli.outputs import STDOUT, check, emit
     from beamplan.report import availability_view as view
     from beamplan.report.document import to_json
@@ -181,12 +182,12 @@ def _common(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("layout", help="the layout file")
     parser.add_argument("economics", nargs="?", help="an economics file (default: the layout's "
                         "'economics:' section, else illustrative defaults; docs/cost.md)")
-    parser.add_argument("-g", "--goal", choices=("headroom", "min-source", "priority"),
-                        default="headroom", help="the planning goal (default headroom)")
+    parser.add_argument("-g", "--goal", choices=GOALS,
+                        default=Goal.HEADROOM, help="the planning goal (default headroom)")
     parser.add_argument("--json", metavar="PATH", help="write the JSON report ('-' for stdout)")
     parser.add_argument("--csv", metavar="DIR", help="write CSV tables into DIR")
     parser.add_argument("--html", metavar="FILE", help="write an HTML report ('-' for stdout)")
-    parser.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
+    parser.add_argument("--solver", choices=SOLVERS, default=Solver.AUTO,
                         help="LP solver (default: HiGHS in process)")
     parser.add_argument("--jobs", type=int, default=1, help="worker processes for the outage "
                         "states (default 1)")

@@ -8,6 +8,7 @@ import sys
 from typing import Any
 
 from beamplan.errors import ExitCode, UsageError
+from beamplan.vocabulary import GOALS, SOLVERS, Goal, Solver
 
 __all__ = ["SUFFIXES", "register"]
 
@@ -30,7 +31,7 @@ def _format(output: str, chosen: str | None) -> str:
 
 
 def _draw(args: argparse.Namespace) -> int:
-    from beamplan.cli.commands import _load_network, _print_warnings, _stages
+    from beamplan.cli.common import _load_network, _print_warnings, _stages
     from beamplan.cli.outputs import STDOUT, check, emit
 
     fmt = _format(args.output, args.format)
@@ -49,7 +50,7 @@ def _draw(args: argparse.Namespace) -> int:
             from beamplan.optimise.planner import plan_network
 
             stages.show("planning")
-            plan = plan_network(network, args.goal or "headroom", args.solver)
+            plan = plan_network(network, args.goal or Goal.HEADROOM, args.solver)
         shown = network
         if args.focus:
             from beamplan.report.summary_diagram import focus_network
@@ -91,13 +92,13 @@ def _draw(args: argparse.Namespace) -> int:
 def _picture(network: Any, plan: Any, fmt: str, summary: bool, group_chains: bool) -> bytes:
     if summary:
         from beamplan.report.dot import summary_dot
-        from beamplan.report.summary_diagram import summary_picture
+        from beamplan.report.summary_draw import summary_picture
 
         if fmt == "dot":
             return summary_dot(network, plan).encode("utf-8")
         return summary_picture(network, plan).data(fmt)
-    from beamplan.report.diagram import diagram_picture
     from beamplan.report.dot import diagram_dot
+    from beamplan.report.draw import diagram_picture
 
     if fmt == "dot":
         return diagram_dot(network, plan, group_chains=group_chains).encode("utf-8")
@@ -116,7 +117,6 @@ def register(sub: Any) -> None:
     >>> args.plan, args.format, args.group_chains, args.detail, args.focus
     (True, None, False, False, None)
     """
-    from beamplan.cli.commands import GOALS  # here, so commands.py may import this module
 
     draw = sub.add_parser("draw", help="draw the power-flow diagram (SVG, PNG, PDF or DOT)",
                           description="Draw the power-flow diagram of a layout: sources on "
@@ -132,7 +132,7 @@ def register(sub: Any) -> None:
                       help="plan the layout and draw its powers (default: the layout only)")
     draw.add_argument("-g", "--goal", choices=GOALS, default=None,
                       help="the planning goal (implies --plan; default headroom)")
-    draw.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
+    draw.add_argument("--solver", choices=SOLVERS, default=Solver.AUTO,
                       help="LP solver for --plan (default: HiGHS, CBC if highspy is missing)")
     draw.add_argument("--group-chains", action="store_true",
                       help="draw each run of plain mirrors, drifts and fixed attenuators as "
@@ -152,7 +152,7 @@ def register(sub: Any) -> None:
                       help="the picture format, when the suffix of FILE does not say it")
     draw.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
     draw.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
-    from beamplan.cli.commands import add_limits_option
+    from beamplan.cli.common import add_limits_option
 
     add_limits_option(draw)
     draw.set_defaults(handler=_draw)

@@ -9,6 +9,7 @@ from typing import Any
 
 from beamplan import __version__
 from beamplan.errors import ExitCode, UsageError
+from beamplan.vocabulary import GOALS, SOLVERS, Goal, Solver
 
 __all__ = ["register"]
 
@@ -31,7 +32,7 @@ def _tolerance(args: argparse.Namespace) -> int:
     from beamplan.analyses.tolerance import run_tolerance
     from beamplan.analyses.tolerance_model import build_model
     from beamplan.analyses.tolerance_summary import summarise
-    from beamplan.cli.commands import _existing_file
+    from beamplan.cli.common import _existing_file
     from beamplan.layout.loader import parse_layout
     from beamplan.layout.tolerances import load_tolerances, parse_tolerances
     from beamplan.layout.yamlpos import load_yaml
@@ -88,7 +89,7 @@ def _tolerance(args: argparse.Namespace) -> int:
 
 
 def _outputs(args: argparse.Namespace, summary: Any, to_stdout: bool) -> None:
-    from beamplan.cli.commands import _console
+    from beamplan.cli.common import _console
     from beamplan.cli.outputs import emit
 
     inputs = [p for p in (args.layout, args.tolerances) if p]
@@ -141,15 +142,15 @@ def register(sub: Any) -> None:
                    help="Saltelli base samples, a power of two (default 512 fixed, 64 "
                    "retuned)")
     p.add_argument("--no-sensitivity", action="store_true", help="skip the Sobol' indices")
-    p.add_argument("-g", "--goal", choices=("headroom", "min-source", "priority"),
-                   default="headroom", help="the planning goal of the plan (default headroom)")
+    p.add_argument("-g", "--goal", choices=GOALS,
+                   default=Goal.HEADROOM, help="the planning goal of the plan (default headroom)")
     p.add_argument("--jobs", type=int, default=1, help="worker processes (default 1)")
     p.add_argument("--top", type=int, default=10, help="rows of the sensitivity ranking")
     p.add_argument("--json", metavar="PATH", help="write the JSON report ('-' for stdout)")
     p.add_argument("--csv", metavar="DIR", help="write CSV tables into DIR, created or "
                    "replaced as a whole")
     p.add_argument("--html", metavar="FILE", help="write an HTML report ('-' for stdout)")
-    p.add_argument("--solver", choices=("auto", "highs", "cbc"), default="auto",
+    p.add_argument("--solver", choices=SOLVERS, default=Solver.AUTO,
                    help="LP solver (default: HiGHS in process, CBC if highspy is missing)")
     p.add_argument("-q", "--quiet", action="store_true", help="no terminal report")
     p.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)

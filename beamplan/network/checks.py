@@ -7,16 +7,49 @@ end nowhere, and the warning for heat limits that can never bind.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from collections.abc import Mapping, Sequence
+from typing import Protocol, TypeVar
 
 import networkx as nx
 
-from beamplan.errors import Diagnostic
+from beamplan.errors import Diagnostic, Location
 from beamplan.layout.model import Layout
 from beamplan.network.behaviour import Behaviour, Node
 
-if TYPE_CHECKING:
-    from beamplan.network.graph import Link, Network
+
+# The checks run while graph.py builds its Network, so they see the link and
+# the network through these structural types, not by importing graph.py.
+class Link(Protocol):
+    """What the checks read of a :class:`beamplan.network.graph.Link`."""
+
+    @property
+    def index(self) -> int: ...
+    @property
+    def tail(self) -> str: ...
+    @property
+    def head(self) -> str: ...
+    @property
+    def port(self) -> str | None: ...
+    @property
+    def location(self) -> Location: ...
+    @property
+    def tail_location(self) -> Location: ...
+    @property
+    def label(self) -> str: ...
+
+
+L = TypeVar("L", bound=Link)
+
+
+class Network(Protocol[L]):
+    """What the heat-limit check reads of a :class:`beamplan.network.graph.Network`."""
+
+    @property
+    def nodes(self) -> Sequence[Node]: ...
+    @property
+    def in_links(self) -> Mapping[str, Sequence[L]]: ...
+
+    def port_gain_max(self, link: L, /) -> float: ...
 
 __all__ = ["check_graph", "heat_limit_warnings"]
 
@@ -141,7 +174,7 @@ def _reachability(nodes: dict[str, Node], graph: nx.MultiDiGraph,
     return out
 
 
-def heat_limit_warnings(network: Network) -> list[Diagnostic]:
+def heat_limit_warnings(network: Network[L]) -> list[Diagnostic]:
     """Warn about heat limits that no allocation can reach.
 
     The most an element can absorb is bounded by the most power that can

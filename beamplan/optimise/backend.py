@@ -25,6 +25,7 @@ from typing import Any, Protocol
 import numpy as np
 
 from beamplan.optimise.lp import LpModel
+from beamplan.vocabulary import Solver
 
 __all__ = ["Backend", "CbcBackend", "HighsBackend", "RawSolution", "highs_lp", "highs_order",
            "make_backend"]
@@ -341,7 +342,7 @@ class CbcBackend:
         return RawSolution("optimal", float(pulp.value(problem.objective) or 0.0), cols, duals)
 
 
-def make_backend(model: LpModel, solver: str = "auto") -> Backend:
+def make_backend(model: LpModel, solver: Solver | str = Solver.AUTO) -> Backend:
     """Pick a back end: ``"highs"``, ``"cbc"`` or ``"auto"`` (HiGHS when available).
 
     Examples
@@ -353,10 +354,10 @@ def make_backend(model: LpModel, solver: str = "auto") -> Backend:
     >>> make_backend(lp).name
     'HiGHS'
     """
-    if solver in ("auto", "highs"):
+    if solver in (Solver.AUTO, Solver.HIGHS):
         try:
             return HighsBackend(model)
         except ImportError:
-            if solver == "highs":
+            if solver == Solver.HIGHS:
                 raise
     return CbcBackend(model)

@@ -29,41 +29,39 @@ from beamplan.optimise.goals import GoalOutcome
 from beamplan.optimise.lp import LpModel, Row
 from beamplan.optimise.result import Binding, Flows
 from beamplan.units import format_power
+from beamplan.vocabulary import FAMILIES, Family, reported_families
 
 __all__ = ["binding_constraints", "shortfall_limits", "watts"]
 
-_FAMILIES = ("heat", "available", "max-power", "share-low", "share-high", "range-low",
-             "range-high", "demand")
-_PER_POINT = ("share-low", "share-high", "range-low", "range-high")
+_FAMILIES = reported_families()
 PRICE_TOL = 1e-9
 
 
 def _describe(row: Row, network: Network) -> str:
     node = network.node[row.node]
-    if row.family == "heat":
-        return f"heat limit of {node.kind} '{node.id}' ({format_power(node.heat_limit_w or 0)})"
-    if row.family == "available":
-        return f"available power of source '{node.id}' ({format_power(node.available_w)})"
-    if row.family == "max-power":
+    words = FAMILIES[row.family].words
+    if row.family == Family.HEAT:
+        return f"{words} of {node.kind} '{node.id}' ({format_power(node.heat_limit_w or 0)})"
+    if row.family == Family.AVAILABLE:
+        return f"{words} of source '{node.id}' ({format_power(node.available_w)})"
+    if row.family == Family.MAX_POWER:
         if node.ceiling_w is not None and node.max_w == node.ceiling_w:
             return (f"useful ceiling of scanner '{node.id}' ({format_power(node.max_w)}; above "
                     "it the stage, not the light, sets its throughput)")
-        return f"max_power of scanner '{node.id}' ({format_power(node.max_w or 0)})"
-    if row.family == "demand":
-        return f"need of scanner '{node.id}' ({format_power(node.need_w)})"
-    if row.family in ("share-low", "share-high"):
+        return f"{words} of scanner '{node.id}' ({format_power(node.max_w or 0)})"
+    if row.family == Family.DEMAND:
+        return f"{words} of scanner '{node.id}' ({format_power(node.need_w)})"
+    if row.family in (Family.SHARE_LOW, Family.SHARE_HIGH):
         port = next(p for p in node.ports if p.name == row.port)
-        side, value = (("lower", port.fraction_min) if row.family == "share-low"
-                       else ("upper", port.fraction_max))
-        return f"{side} share bound of splitter '{node.id}' output '{row.port}' ({value:.1%})"
-    side, value = (("lowest", node.gain_min) if row.family == "range-low"
-                   else ("highest", node.gain_max))
-    return f"{side} transmission of attenuator '{node.id}' ({value:.1%})"
+        value = port.fraction_min if row.family == Family.SHARE_LOW else port.fraction_max
+        return f"{words} of splitter '{node.id}' output '{row.port}' ({value:.1%})"
+    value = node.gain_min if row.family == Family.RANGE_LOW else node.gain_max
+    return f"{words} of attenuator '{node.id}' ({value:.1%})"
 
 
 def _price(row: Row, dual: float, primary: str, flows: Flows) -> tuple[float, str]:
     """The rate of change of the goal's own quantity per unit of the bound."""
-    if row.family in _PER_POINT:
+    if FAMILIES[row.family].per_element:
         per = -dual * flows.incident_w[row.node] / 100.0  # per percentage point
         unit = "per percentage point"
     else:
@@ -92,7 +90,7 @@ def watts(power_w: float, *, signed: bool = False) -> str:
 
 def _meaning(row: Row, price: float, unit: str, primary: str,
              bottleneck: Sequence[tuple[str, float]], tiers: int) -> str:
-    if row.family == "demand":
+    if row.family == Family.DEMAND:
         if primary == "source":
             return f"each W more needed here costs {watts(price)} of source power"
         return f"each W more needed here adds {watts(price)} of weighted shortfall"
@@ -133,9 +131,9 @@ def binding_constraints(model: LpModel, outcome: GoalOutcome, flows: Flows
         row = model.row_info[int(index)]
         if row.family not in _FAMILIES:
             continue
-        if row.family == "demand" and outcome.primary == "factor":
+        if row.family == Family.DEMAND and outcome.primary == "factor":
             continue  # the factor's own rows: their price is the factor itself
-        if row.family == "range-high" and network.node[row.node].gain_max >= 1.0:
+        if row.family == Family.RANGE_HIGH and network.node[row.node].gain_max >= 1.0:
             continue  # full transmission cannot be raised further
         dual = float(duals[index])
         if abs(dual) <= PRICE_TOL:
@@ -211,12 +209,12 @@ class _Priced:
         for index in np.flatnonzero(np.abs(duals) > PRICE_TOL) if len(duals) else []:
             row = model.row_info[int(index)]
             self.by_node.setdefault(row.node, []).append(int(index))
-            if row.family == "demand":
+            if row.family == Family.DEMAND:
                 self.demand.append(row.node)
                 continue
             if row.family not in _FAMILIES:
                 continue
-            if row.family == "range-high" and network.node[row.node].gain_max >= 1.0:
+            if row.family == Family.RANGE_HIGH and network.node[row.node].gain_max >= 1.0:
                 continue
             self.reasons.append((int(index), _describe(row, network) + " is reached"))
         self.demand.sort()
@@ -275,7 +273,7 @@ def shortfall_limits(model: LpModel, outcome: GoalOutcome, scanner_id: str,
         stage = tuple(dict.fromkeys(priced.described[r] for r in rows
                                     if r in priced.described))
         sharing = sorted(model.row_info[r].node for r in rows
-                         if model.row_info[r].family == "demand"
+                         if model.row_info[r].family == Family.DEMAND
                          and model.row_info[r].node != scanner_id)
     else:
         stage = priced.texts

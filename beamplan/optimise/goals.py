@@ -23,10 +23,12 @@ from beamplan.network.behaviour import Node
 from beamplan.optimise.backend import INF, Backend, RawSolution
 from beamplan.optimise.lp import LpModel
 from beamplan.optimise.magnitudes import solver_failure
+from beamplan.vocabulary import GOALS as _GOALS
+from beamplan.vocabulary import Goal
 
 __all__ = ["GOALS", "GoalOutcome", "run_goal"]
 
-GOALS = ("headroom", "min-source", "priority")
+GOALS = _GOALS  # the goals a user may choose (beamplan.vocabulary)
 DUAL_TOL = 1e-9
 TIER_WEIGHT = 1000.0
 
@@ -258,7 +260,7 @@ def _screen(d: _Driver) -> GoalOutcome:
                        d.freeze_duals, tuple(d.first_frozen))
 
 
-def run_goal(model: LpModel, backend: Backend, goal: str) -> GoalOutcome:
+def run_goal(model: LpModel, backend: Backend, goal: Goal | str) -> GoalOutcome:
     """Solve ``goal`` on ``model`` with ``backend``; the model may be re-used.
 
     Examples
@@ -272,14 +274,12 @@ def run_goal(model: LpModel, backend: Backend, goal: str) -> GoalOutcome:
     >>> outcome.primary, outcome.primary_value > 1.0
     ('factor', True)
     """
-    if goal not in GOALS and goal != "screen":
-        raise ValueError(f"unknown goal {goal!r}; the goals are {', '.join(GOALS)}")
+    try:
+        chosen = Goal(goal)
+    except ValueError:
+        raise ValueError(f"unknown goal {goal!r}; the goals are {', '.join(GOALS)}") from None
     driver = _Driver(model, backend)
     _reset(driver)
-    if goal == "headroom":
-        return _headroom(driver)
-    if goal == "min-source":
-        return _min_source(driver)
-    if goal == "screen":
-        return _screen(driver)
-    return _priority(driver)
+    run = {Goal.HEADROOM: _headroom, Goal.MIN_SOURCE: _min_source, Goal.SCREEN: _screen,
+           Goal.PRIORITY: _priority}
+    return run[chosen](driver)

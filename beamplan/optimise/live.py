@@ -22,6 +22,7 @@ from beamplan.optimise.goals import run_goal
 from beamplan.optimise.lp import LpModel, build_lp
 from beamplan.optimise.planner import solve_model
 from beamplan.optimise.result import Plan
+from beamplan.vocabulary import Family, Goal, Solver
 
 __all__ = ["CaseSummary", "LiveModel"]
 
@@ -51,7 +52,7 @@ class LiveModel:
     True
     """
 
-    def __init__(self, network: Network, solver: str = "auto") -> None:
+    def __init__(self, network: Network, solver: Solver | str = Solver.AUTO) -> None:
         self.network = network
         self.model: LpModel = build_lp(network)
         self.backend: Backend = make_backend(self.model, solver)
@@ -77,11 +78,11 @@ class LiveModel:
                 for n in network.elements
                 if n.behaviour is Behaviour.COMBINE and n.select is not None}
 
-    def plan(self, goal: str = "headroom") -> Plan:
+    def plan(self, goal: Goal | str = Goal.HEADROOM) -> Plan:
         """Solve ``goal`` for the network as it stands (with any outage applied)."""
         return solve_model(self.model, self.backend, goal)
 
-    def summary(self, goal: str = "headroom") -> CaseSummary:
+    def summary(self, goal: Goal | str = Goal.HEADROOM) -> CaseSummary:
         """Solve ``goal`` and return only what a sweep ranks by (no report, fast).
 
         Delivered powers are read from the LP's link columns; the full
@@ -133,7 +134,7 @@ class LiveModel:
                 for col in self._in_cols(node.id):
                     self._coefficient(row, col, on)
         elif b_ is Behaviour.RANGE:
-            for family in ("range-low", "range-high"):
+            for family in (Family.RANGE_LOW, Family.RANGE_HIGH):
                 for row in self._rows_of(node.id, family):
                     for col in self._in_cols(node.id):
                         self._coefficient(row, col, on)

@@ -27,6 +27,7 @@ import numpy as np
 
 from beamplan.network.behaviour import Behaviour, Node
 from beamplan.network.graph import Network
+from beamplan.vocabulary import Family
 
 __all__ = ["Coefs", "LpModel", "Row", "build_lp", "gc_paused"]
 
@@ -45,7 +46,7 @@ class Row:
     """
 
     name: str
-    family: str
+    family: Family
     node: str
     port: str | None = None
 
@@ -288,9 +289,9 @@ def _source_columns(m: LpModel) -> None:
         m.source_col[node.id] = col
         out = m.network.out_link.get((node.id, None))
         flow = m.link_coefs(out.index) if out is not None else {}
-        m.add_row(_plus((1.0, flow), (-1.0, {col: 1.0})), Row(f"src{_tag(i)}", "source", node.id),
-                  0.0, 0.0)
-        m.available_row[node.id] = m.add_row({col: 1.0}, Row(f"avl{_tag(i)}", "available",
+        m.add_row(_plus((1.0, flow), (-1.0, {col: 1.0})),
+                  Row(f"src{_tag(i)}", Family.SOURCE, node.id), 0.0, 0.0)
+        m.available_row[node.id] = m.add_row({col: 1.0}, Row(f"avl{_tag(i)}", Family.AVAILABLE,
                                                              node.id), high=node.available_w)
 
 
@@ -308,16 +309,16 @@ def _element_rows(m: LpModel, i: int, node: Node) -> Coefs:
     if node.behaviour is Behaviour.RANGE:
         out = _out(m, node, None)
         m.add_row(_plus((1.0, out), (-node.gain_min, inflow)),
-                  Row(f"rlo{tag}", "range-low", node.id), low=0.0)
+                  Row(f"rlo{tag}", Family.RANGE_LOW, node.id), low=0.0)
         m.add_row(_plus((1.0, out), (-node.gain_max, inflow)),
-                  Row(f"rhi{tag}", "range-high", node.id), high=0.0)
+                  Row(f"rhi{tag}", Family.RANGE_HIGH, node.id), high=0.0)
         return _plus((1.0, inflow), (-1.0, out))
     if node.behaviour is Behaviour.SPLIT:
         return _splitter_rows(m, tag, node, inflow)
     if node.behaviour is Behaviour.COMBINE:
         out = _out(m, node, None)
         m.add_row(_plus((1.0, out), (-node.gain_max, inflow)),
-                  Row(f"bal{tag}", "balance", node.id), 0.0, 0.0)
+                  Row(f"bal{tag}", Family.BALANCE, node.id), 0.0, 0.0)
         if node.select is not None:
             for link in m.network.in_links[node.id]:
                 if link.tail != node.select:
@@ -338,13 +339,13 @@ def _splitter_rows(m: LpModel, tag: str, node: Node, inflow: Coefs) -> Coefs:
         ptag = f"{tag}_{k:02d}"
         if port.fraction_min > 0.0:
             m.add_row(_plus((1.0, share), (-port.fraction_min, inflow)),
-                      Row(f"slo{ptag}", "share-low", node.id, port.name), low=0.0)
+                      Row(f"slo{ptag}", Family.SHARE_LOW, node.id, port.name), low=0.0)
         if port.fraction_max < 1.0:
             m.add_row(_plus((1.0, share), (-port.fraction_max, inflow)),
-                      Row(f"shi{ptag}", "share-high", node.id, port.name), high=0.0)
+                      Row(f"shi{ptag}", Family.SHARE_HIGH, node.id, port.name), high=0.0)
         m.add_row(_plus((1.0, _out(m, node, port.name)), (-port.efficiency, share)),
-                  Row(f"sout{ptag}", "share-out", node.id, port.name), 0.0, 0.0)
-    m.add_row(_plus((1.0, shares), (-1.0, inflow)), Row(f"ssum{tag}", "share-sum", node.id),
+                  Row(f"sout{ptag}", Family.SHARE_OUT, node.id, port.name), 0.0, 0.0)
+    m.add_row(_plus((1.0, shares), (-1.0, inflow)), Row(f"ssum{tag}", Family.SHARE_SUM, node.id),
               0.0, 0.0)
     return absorbed
 
@@ -364,7 +365,7 @@ def _element_families(m: LpModel) -> None:
         else:
             absorbed = _element_rows(m, i, node)
         if node.heat_limit_w is not None:
-            m.heat_row[node.id] = m.add_row(absorbed, Row(f"heat{_tag(i)}", "heat", node.id),
+            m.heat_row[node.id] = m.add_row(absorbed, Row(f"heat{_tag(i)}", Family.HEAT, node.id),
                                             high=node.heat_limit_w)
 
 
@@ -377,9 +378,9 @@ def _scanner_families(m: LpModel) -> None:
         m.shortfall_col[node.id] = short
         m.demand_row[node.id] = m.add_row(
             _plus((1.0, inflow), (1.0, {short: 1.0}), (-node.need_w, {m.factor_col: 1.0})),
-            Row(f"dem{tag}", "demand", node.id), low=0.0)
+            Row(f"dem{tag}", Family.DEMAND, node.id), low=0.0)
         if node.max_w is not None and node.in_service:
-            m.max_row[node.id] = m.add_row(inflow, Row(f"cap{tag}", "max-power", node.id),
+            m.max_row[node.id] = m.add_row(inflow, Row(f"cap{tag}", Family.MAX_POWER, node.id),
                                            high=node.max_w)
 
 

@@ -23,6 +23,7 @@ from beamplan.optimise.result import (
 )
 from beamplan.optimise.surplus import ABSORBERS, check_surplus, settle_surplus, surplus_modes
 from beamplan.physics.source import electrical_draw_w
+from beamplan.vocabulary import Goal, ScannerStatus, Solver
 
 __all__ = ["MET_RTOL", "finish_plan", "plan_network", "solve_model"]
 
@@ -40,16 +41,17 @@ def _scanners(model: LpModel, outcome: GoalOutcome, flows: Flows, goal: str
         caps = {"useful_ceiling_w": node.ceiling_w, "max_power_w": node.max_given_w}
         if not node.in_service:
             out.append(ScannerResult(node.id, node.need_w, 0.0, node.max_w, node.priority, 0.0,
-                                     0.0, "out of service", (), node.provenance,
+                                     0.0, ScannerStatus.OUT_OF_SERVICE, (), node.provenance,
                                      **caps))  # type: ignore[arg-type]
             continue
         ratio = delivered / node.need_w
         short = max(node.need_w - delivered, 0.0)
         limits: tuple[str, ...] = ()
         if short <= MET_RTOL * node.need_w:
-            status, short = "met", 0.0
+            status, short = ScannerStatus.MET, 0.0
         else:
-            status = "cut off" if delivered <= 1e-9 * node.need_w else "short"
+            status = (ScannerStatus.CUT_OFF if delivered <= 1e-9 * node.need_w
+                      else ScannerStatus.SHORT)
             limits = shortfall_limits(model, outcome, node.id, delivered, cache)
         extra = {}
         if node.demand is not None:
@@ -172,9 +174,10 @@ def _finish(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: str,
     scanners = _scanners(model, outcome, flows, goal)
     mode, surplus_w, surplus_to = _surplus(
         network, flows, None if turned_down is None else _flows(model, turned_down))
-    serving = [s for s in scanners if s.status != "out of service"]
+    serving = [s for s in scanners if s.status != ScannerStatus.OUT_OF_SERVICE]
     factor = min((s.delivered_w / s.need_w for s in serving), default=0.0)
-    status = "met" if all(s.status == "met" for s in serving) else "short"
+    status = (ScannerStatus.MET if all(s.status == ScannerStatus.MET for s in serving)
+              else ScannerStatus.SHORT)
     total = sum(s.output_w for s in sources)
     plan = Plan(layout=network.name, file=network.file, sha256=network.sha256, goal=goal,
                 status=status, headroom_factor=factor, sources=sources, scanners=scanners,
@@ -188,7 +191,8 @@ def _finish(model: LpModel, backend: Backend, outcome: GoalOutcome, goal: str,
     return plan
 
 
-def plan_network(network: Network, goal: str = "headroom", solver: str = "auto") -> Plan:
+def plan_network(network: Network, goal: Goal | str = Goal.HEADROOM,
+                 solver: Solver | str = Solver.AUTO) -> Plan:
     """Build the LP of ``network``, solve ``goal`` and return the verified plan.
 
     Examples

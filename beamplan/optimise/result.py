@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 from beamplan.errors import InternalError
 from beamplan.network.behaviour import Behaviour, Port
 from beamplan.network.graph import Network
+from beamplan.vocabulary import Family, ScannerStatus
 
 __all__ = [
     "Binding",
@@ -62,7 +63,7 @@ class ScannerResult:
     priority: int
     headroom: float
     shortfall_w: float
-    status: str  # "met", "short", "cut off"
+    status: ScannerStatus
     limits: tuple[str, ...] = ()
     need_provenance: str = ""
     dose_j_m2: float | None = None
@@ -112,7 +113,7 @@ class Binding:
     """A constraint that binds, with its shadow price in the goal's terms."""
 
     constraint: str
-    family: str
+    family: Family
     subject: str
     description: str
     shadow_price: float
@@ -128,7 +129,7 @@ class Plan:
     file: str
     sha256: str
     goal: str
-    status: str  # "met" or "short"
+    status: ScannerStatus  # MET or SHORT
     headroom_factor: float
     sources: tuple[SourceResult, ...]
     scanners: tuple[ScannerResult, ...]
@@ -209,7 +210,7 @@ class Plan:
     @property
     def all_met(self) -> bool:
         """Whether every scanner gets its need."""
-        return self.status == "met"
+        return self.status == ScannerStatus.MET
 
     def scanner(self, scanner_id: str) -> ScannerResult:
         """Look up one scanner's result."""

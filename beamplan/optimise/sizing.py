@@ -32,6 +32,7 @@ import numpy as np
 from beamplan.network.graph import Network
 from beamplan.optimise.result import ElementResult, Plan
 from beamplan.optimise.sizing_lp import INF, Limit, SizingLp, build_sizing_lp
+from beamplan.vocabulary import FAMILIES, Family, ScannerStatus
 
 __all__ = ["Answer", "Sizing", "size_network"]
 
@@ -59,7 +60,7 @@ class Answer:
     re-plan with the change applied (``None``: not checked).
     """
 
-    family: str
+    family: Family
     element: str
     port: str | None
     unit: str  # "W" or "fraction"
@@ -110,7 +111,7 @@ class Sizing:
 
 def _tol(limit: Limit | Answer) -> float:
     value = limit.limit if isinstance(limit, Answer) else limit.value
-    return CHANGE_RTOL if limit.family.startswith(("share", "range")) else \
+    return CHANGE_RTOL if FAMILIES[limit.family].per_element else \
         CHANGE_RTOL * max(abs(value), 1.0)
 
 
@@ -156,30 +157,30 @@ def _also(others: tuple[Limit, ...]) -> dict[int, tuple[float, float]]:
 
 def _source(lp: SizingLp, unblocks: tuple[str, ...],
             others: tuple[Limit, ...] | None = None) -> Answer:
-    rows = tuple(lm for lm in lp.limits if lm.family == "source")
+    rows = tuple(lm for lm in lp.limits if lm.family == Family.SOURCE)
     standby = lp.network.standby_sources
     available = sum(lm.value for lm in rows if lm.element not in standby)
     ids = ", ".join(lm.element for lm in rows if lm.element not in standby)
     if not rows:
-        return Answer("source", ids, None, "W", 0.0, None, None)
+        return Answer(Family.SOURCE, ids, None, "W", 0.0, None, None)
     status, extra, x = lp.solve({lm.relax_col: 1.0 for lm in rows},
                                 {**_also(others or ()), **{lm.relax_col: (0.0, INF)
                                                            for lm in rows}})
     if others is not None:
-        return Answer("source", ids, None, "W", available, None, None,
+        return Answer(Family.SOURCE, ids, None, "W", available, None, None,
                       change_with_others=extra if status == "optimal" else None)
     if status != "optimal":
         blockers = _blockers(lp, rows)
-        return Answer("source", ids, None, "W", available, None, None,
+        return Answer(Family.SOURCE, ids, None, "W", available, None, None,
                       blocked_by=tuple(lm.key for lm in blockers),
                       change_with_others=_source(lp, unblocks, blockers).change_with_others)
     if extra > CHANGE_RTOL * max(available, 1.0):
         parts = tuple((lm.element, float(x[lm.relax_col])) for lm in rows
                       if x[lm.relax_col] > IDLE_W)
-        return Answer("source", ", ".join(p[0] for p in parts), None, "W", available,
+        return Answer(Family.SOURCE, ", ".join(p[0] for p in parts), None, "W", available,
                       available + extra, extra, unblocks, parts=parts)
     status, least, _ = lp.solve({col: coef for lm in rows for col, coef in lm.used.items()}, {})
-    return Answer("source", ids, None, "W", available, least, least - available)
+    return Answer(Family.SOURCE, ids, None, "W", available, least, least - available)
 
 
 def _single(lp: SizingLp, limit: Limit, unblocks: tuple[str, ...],
@@ -244,7 +245,7 @@ def _combined(lp: SizingLp, unblocks: tuple[str, ...]
             continue
         r = relaxed[limit.key]
         if not limit.is_fraction:
-            parts = ((limit.element, r),) if limit.family == "source" else ()
+            parts = ((limit.element, r),) if limit.family == Family.SOURCE else ()
             out.append(Answer(limit.family, limit.element, limit.port, "W", limit.value,
                               limit.value + r, r, unblocks, parts=parts))
             continue
@@ -260,13 +261,13 @@ def _combined(lp: SizingLp, unblocks: tuple[str, ...]
 
 def _reached(limit: Limit, plan: Plan, elements: dict[str, ElementResult]) -> bool:
     """Whether the plan reaches a limit (to TIGHT_RTOL)."""
-    if limit.family == "source":
+    if limit.family == Family.SOURCE:
         return any(s.id == limit.element and s.output_w >= s.available_w * (1 - TIGHT_RTOL)
                    for s in plan.sources)
-    if limit.family == "max-power":
+    if limit.family == Family.MAX_POWER:
         return plan.scanner(limit.element).delivered_w >= limit.value * (1 - TIGHT_RTOL)
     element = elements[limit.element]
-    if limit.family == "heat":
+    if limit.family == Family.HEAT:
         return element.absorbed_w >= limit.value * (1 - TIGHT_RTOL)
     if element.incident_w <= IDLE_W or element.setting is None:
         return False
@@ -292,14 +293,14 @@ def size_network(network: Network, plan: Plan) -> Sizing:
     """
     lp = build_sizing_lp(network)
     served = set(lp.served)
-    short = tuple(s.id for s in plan.scanners if s.status in ("short", "cut off")
-                  and s.id in served)
-    unreachable = tuple(s.id for s in plan.scanners if s.status in ("short", "cut off")
+    failing = (ScannerStatus.SHORT, ScannerStatus.CUT_OFF)
+    short = tuple(s.id for s in plan.scanners if s.status in failing and s.id in served)
+    unreachable = tuple(s.id for s in plan.scanners if s.status in failing
                         and s.id not in served)
     source = _source(lp, short)
     possible, combined, cost = _combined(lp, short) if short else (True, (), 0.0)
     wanted = {a.key for a in combined}
     elements = {e.id: e for e in plan.elements}
-    limits = tuple(_single(lp, lm, short) for lm in lp.limits if lm.family != "source"
+    limits = tuple(_single(lp, lm, short) for lm in lp.limits if lm.family != Family.SOURCE
                    and (lm.key in wanted or _reached(lm, plan, elements)))
     return Sizing(short, unreachable, source, limits, combined, possible, cost)

@@ -20,6 +20,7 @@ import numpy as np
 
 from beamplan.network.behaviour import Behaviour, Node
 from beamplan.network.graph import Link, Network
+from beamplan.vocabulary import FAMILIES, Family
 
 __all__ = ["Limit", "SizingLp", "build_sizing_lp", "reachable_scanners"]
 
@@ -37,7 +38,7 @@ class Limit:
     bound limits (a share or an output over the element's input).
     """
 
-    family: str
+    family: Family
     element: str
     port: str | None
     value: float  # the limit as the layout gives it (W or a fraction)
@@ -50,7 +51,7 @@ class Limit:
     @property
     def is_fraction(self) -> bool:
         """Whether the limit is a fraction (share or transmission) rather than watts."""
-        return self.family.startswith(("share", "range"))
+        return FAMILIES[self.family].per_element
 
     @property
     def key(self) -> str:
@@ -237,7 +238,7 @@ def reachable_scanners(network: Network) -> frozenset[str]:
     return frozenset(n.id for n in network.scanners if n.id in seen and n.in_service)
 
 
-def _limit(m: SizingLp, family: str, node: Node, port: str | None, value: float,
+def _limit(m: SizingLp, family: Family, node: Node, port: str | None, value: float,
            used: dict[int, float], sense: int, numerator: int = -1,
            denominator: dict[int, float] | None = None) -> None:
     """A limit row: used − value × z − r ≤ 0 (sense +1) or used + r ≥ 0 (sense −1).
@@ -247,7 +248,7 @@ def _limit(m: SizingLp, family: str, node: Node, port: str | None, value: float,
     """
     r = m.add_column(0.0, 0.0)
     coefs = dict(used)
-    if not family.startswith(("share", "range")):
+    if not FAMILIES[family].per_element:
         coefs[m.z] = coefs.get(m.z, 0.0) - value
     coefs[r] = -1.0 if sense > 0 else 1.0
     row = m.add_row(coefs, -INF, 0.0) if sense > 0 else m.add_row(coefs, 0.0, INF)
@@ -270,7 +271,7 @@ def _sources(m: SizingLp) -> None:
             continue
         col = m.link_col[link.index]
         if node.in_service:
-            _limit(m, "source", node, None, node.available_w, {col: 1.0}, +1)
+            _limit(m, Family.SOURCE, node, None, node.available_w, {col: 1.0}, +1)
         else:
             m.col_high[col] = 0.0
 
@@ -290,10 +291,10 @@ def _element(m: SizingLp, node: Node) -> dict[int, float]:
         out = m.out(node.id)
         m.add_row(_plus({out: 1.0}, m.inflow(node.id, -1.0)), -INF, 0.0)  # T ≤ 1 always
         if node.gain_min > 0.0:
-            _limit(m, "range-low", node, None, node.gain_min,
+            _limit(m, Family.RANGE_LOW, node, None, node.gain_min,
                    _plus({out: 1.0}, m.inflow(node.id, -node.gain_min)), -1, out, inflow)
         if node.gain_max < 1.0:
-            _limit(m, "range-high", node, None, node.gain_max,
+            _limit(m, Family.RANGE_HIGH, node, None, node.gain_max,
                    _plus({out: 1.0}, m.inflow(node.id, -node.gain_max)), +1, out, inflow)
         return _plus(inflow, {out: -1.0})
     if b is Behaviour.SPLIT:
@@ -304,10 +305,10 @@ def _element(m: SizingLp, node: Node) -> dict[int, float]:
             absorbed[s] = 1.0 - port.efficiency
             m.add_row({m.out(node.id, port.name): 1.0, s: -port.efficiency}, 0.0, 0.0)
             if port.fraction_min > 0.0:
-                _limit(m, "share-low", node, port.name, port.fraction_min,
+                _limit(m, Family.SHARE_LOW, node, port.name, port.fraction_min,
                        _plus({s: 1.0}, m.inflow(node.id, -port.fraction_min)), -1, s, inflow)
             if port.fraction_max < 1.0:
-                _limit(m, "share-high", node, port.name, port.fraction_max,
+                _limit(m, Family.SHARE_HIGH, node, port.name, port.fraction_max,
                        _plus({s: 1.0}, m.inflow(node.id, -port.fraction_max)), +1, s, inflow)
         shares = {m.share_col[(node.id, p.name)]: 1.0 for p in node.ports}
         m.add_row(_plus(shares, m.inflow(node.id, -1.0)), 0.0, 0.0)
@@ -319,7 +320,7 @@ def _elements(m: SizingLp) -> None:
     for node in m.network.elements:
         absorbed = _element(m, node)
         if node.heat_limit_w is not None:
-            _limit(m, "heat", node, None, node.heat_limit_w, absorbed, +1)
+            _limit(m, Family.HEAT, node, None, node.heat_limit_w, absorbed, +1)
 
 
 def _scanners(m: SizingLp) -> None:
@@ -331,7 +332,7 @@ def _scanners(m: SizingLp) -> None:
         if node.id in served and node.need_w > 0.0:
             m.demand_row[node.id] = m.add_row(_plus(inflow, {m.z: -node.need_w}), 0.0, INF)
         if node.max_w is not None:
-            _limit(m, "max-power", node, None, node.max_w, inflow, +1)
+            _limit(m, Family.MAX_POWER, node, None, node.max_w, inflow, +1)
     m.served = tuple(sid for sid in m.demand_row)
 
 

@@ -24,6 +24,7 @@ from beamplan.optimise.goals import GoalOutcome, run_goal
 from beamplan.optimise.lp import LpModel, Row, build_lp
 from beamplan.optimise.planner import finish_plan
 from beamplan.optimise.result import Plan
+from beamplan.vocabulary import Family, Goal, Solver
 
 __all__ = ["Setting", "steady_plan"]
 
@@ -51,15 +52,15 @@ def _deviation_rows(model: LpModel, base: Mapping[str, Setting]) -> list[int]:
             dev = model.var(col)
             tag = f"{i:05d}_{k:02d}"
             model.add_row(dev - (var - ratio * inflow) >= 0,
-                          Row(f"zdp{tag}", "deviation", node.id, port))
+                          Row(f"zdp{tag}", Family.DEVIATION, node.id, port))
             model.add_row(dev + (var - ratio * inflow) >= 0,
-                          Row(f"zdm{tag}", "deviation", node.id, port))
+                          Row(f"zdm{tag}", Family.DEVIATION, node.id, port))
             columns.append(col)
     return columns
 
 
 def steady_plan(network: Network, base_settings: Mapping[str, Setting], *,
-                tolerance: float = 0.0, solver: str = "auto") -> tuple[Plan, float]:
+                tolerance: float = 0.0, solver: Solver | str = Solver.AUTO) -> tuple[Plan, float]:
     """Plan ``network`` near its best headroom, moving the base settings as little as possible.
 
     First the case is planned with the ``headroom`` goal (progressive
@@ -87,7 +88,7 @@ def steady_plan(network: Network, base_settings: Mapping[str, Setting], *,
     deviations = _deviation_rows(model, base_settings)
     backend = make_backend(model, solver)
     # The plain plan's levels; the deviation columns cost nothing in this goal.
-    plain = run_goal(model, backend, "headroom")
+    plain = run_goal(model, backend, Goal.HEADROOM)
     keep = (1.0 - tolerance) * (1.0 - backend.freeze_slack)
     for node in network.scanners:
         row = model.demand_row[node.id]
@@ -109,4 +110,4 @@ def steady_plan(network: Network, base_settings: Mapping[str, Setting], *,
     floors = {sid: keep * level for sid, level in plain.levels.items()}
     outcome = GoalOutcome(solution, "source", np.zeros(len(model.row_info)), solution.objective,
                           floors, plain.stages + 1)
-    return finish_plan(model, backend, outcome, "headroom"), plain.primary_value
+    return finish_plan(model, backend, outcome, Goal.HEADROOM), plain.primary_value

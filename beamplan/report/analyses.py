@@ -19,6 +19,7 @@ from beamplan.report.document import csv_text, rounded, signed_percent, signed_p
 from beamplan.report.document import to_json as strict_json
 from beamplan.report.terminal import titled_table
 from beamplan.units import format_power
+from beamplan.vocabulary import ScannerStatus
 
 __all__ = ["cases_csv", "cases_document", "cases_renderable", "search_words", "sweep_csv",
            "sweep_document", "sweep_renderable", "to_json"]
@@ -28,7 +29,7 @@ OUTAGES_FORMAT = "beamplan-outages/1"
 
 
 def _short(plan: Plan) -> str:
-    short = [s for s in plan.scanners if s.status in ("short", "cut off")]
+    short = [s for s in plan.scanners if s.status in (ScannerStatus.SHORT, ScannerStatus.CUT_OFF)]
     if not short:
         return "none"
     return ", ".join(f"{s.id} -{format_power(s.shortfall_w)}" for s in short[:3]) + (
@@ -66,7 +67,7 @@ def cases_renderable(comparison: Comparison) -> Group:
             s = _scanner(case.plan, sid)
             if s is None:
                 cells.append("dropped" if base else "-")
-            elif s.status == "out of service":
+            elif s.status == ScannerStatus.OUT_OF_SERVICE:
                 cells.append("out")
             else:
                 delta = s.delivered_w - (base.delivered_w if base else 0.0)

@@ -8,8 +8,8 @@ from beamplan.analyses.availability_sim import Simulation
 from beamplan.analyses.cost import CostReport
 from beamplan.report.availability_view import METHOD
 from beamplan.report.cost_view import money
-from beamplan.report.diagram import PALETTE
 from beamplan.report.html import facts, figure, inline_svg, page, table
+from beamplan.report.palette import PALETTE
 from beamplan.report.plots import Picture, _axes, _grid, _left, _styled
 
 __all__ = ["availability_chart", "availability_html", "break_even_chart", "cost_chart",

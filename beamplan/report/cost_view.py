@@ -6,6 +6,7 @@ from typing import Any
 
 from beamplan.analyses.cost import CostReport
 from beamplan.report.document import csv_text
+from beamplan.vocabulary import ScannerStatus
 
 __all__ = ["COST_FORMAT", "compare_renderable", "cost_csv", "cost_document", "cost_renderable",
            "money", "short_money", "table"]
@@ -196,7 +197,7 @@ def cost_renderable(report: CostReport) -> Any:
            + (" (kept warm)" if any(s.standby and s.electrical_w > 0 for s in report.sources)
               else "") + "."] if any(s.standby for s in report.sources) else []),
         *(f"Assumed: {a}." for a in report.assumptions)]))
-    status = "" if report.plan.status == "met" else \
+    status = "" if report.plan.status == ScannerStatus.MET else \
         f"  [plan {report.plan.status}: some scanners get less than their need]"
     return Group(Text(f"Cost and energy: {report.layout} ({report.file}){status}",
                       style="bold"),

@@ -6,8 +6,8 @@ rightmost, each element in the column of its longest path from a source;
 rows follow a depth-first order (no crossings in a tree, barycentre sweeps
 for the rest) and each box sits centred on what it feeds. Marks (link
 widths, heat-use fills, statuses, binding rings) are decided here too, so
-that the matplotlib picture (:func:`diagram_picture`: SVG, PNG, PDF, drawn
-by :mod:`beamplan.report.draw`) and the Graphviz text
+that the matplotlib picture (:func:`beamplan.report.draw.diagram_picture`: SVG,
+PNG, PDF) and the Graphviz text
 (:func:`beamplan.report.dot.diagram_dot`) show the same thing. The marks
 are explained in docs/pictures.md and in the legend of every picture.
 """
@@ -18,35 +18,20 @@ import itertools
 import math
 import textwrap
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING
 
 from beamplan.network.behaviour import Behaviour
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
 from beamplan.report.document import signed_percent
+from beamplan.report.palette import HEAT_BANDS, PALETTE
 from beamplan.units import format_power
+from beamplan.vocabulary import FAMILIES, ScannerStatus
 
-if TYPE_CHECKING:
-    from beamplan.report.plots import Picture
-
-__all__ = ["HEAT_BANDS", "PALETTE", "Box", "Diagram", "Wire", "diagram_model", "diagram_picture",
+__all__ = ["BINDS", "HEAT_BANDS", "PALETTE", "Box", "Diagram", "Wire", "diagram_model",
            "link_powers"]
 
-#: beamplan's own palette. Lightness alone tells the heat bands apart (they
-#: print in grey); hues run blue to brown, an axis that red-green colour
-#: blindness keeps. tests/test_diagram.py checks both with simulated vision.
-PALETTE = {
-    "ink": "#1d2330", "paper": "#ffffff", "beam": "#4d7fb3", "idle": "#8a93a0",
-    "bind": "#8e1f5e", "met": "#d6e6f4", "source": "#c9d5e3", "dump": "#d4d4d4",
-    "heat-none": "#ffffff", "heat-1": "#f6dfb6", "heat-2": "#eab266", "heat-3": "#c8701f",
-    "heat-4": "#6e3309",
-}
-#: (palette key, words, lowest use) of each heat band: absorbed ÷ heat limit.
-HEAT_BANDS = (("heat-1", "under 50 %", 0.0), ("heat-2", "50–80 %", 0.5),
-              ("heat-3", "80 % to just under the limit", 0.8), ("heat-4", "at the limit", 1 - 1e-6))
-BINDS = {"heat": "heat limit", "available": "all power drawn", "max-power": "max_power",
-         "share-low": "lowest share", "share-high": "highest share", "demand": "need",
-         "range-low": "lowest transmission", "range-high": "highest transmission"}
+#: The label of each binding family beside a box (from the vocabulary's registry).
+BINDS: dict[str, str] = {f: info.label for f, info in FAMILIES.items() if info.label}
 
 FONT_PT = 6.5
 LINE_IN = FONT_PT * 1.3 / 72      # one text line, inches
@@ -188,13 +173,13 @@ def _box(network: Network, plan: Plan | None, members: list[str], binds: tuple[s
     if node.is_scanner:
         r = plan.scanner(key) if plan else None
         lines = [key, f"need {format_power(node.need_w)}"]
-        if r is None or r.status == "met":
+        if r is None or r.status == ScannerStatus.MET:
             lines += ([f"gets {format_power(r.delivered_w)}, {signed_percent(r.headroom)}"]
                       if r else [])
             return Box(key, (key,), "scanner", tuple(lines), PALETTE["met"], binds=binds)
         lines.append(f"{r.status} {format_power(r.shortfall_w)}, {signed_percent(r.headroom)}")
         return Box(key, (key,), "scanner", tuple(lines), PALETTE["paper"],
-                   "xxxx" if r.status == "cut off" else "////", True, binds)
+                   "xxxx" if r.status == ScannerStatus.CUT_OFF else "////", True, binds)
     e = got.get(key)
     kind = node.kind + (f", gain {node.gain_max:.3f}" if node.behaviour in (
         Behaviour.GAIN, Behaviour.COMBINE) else "" if node.behaviour is not Behaviour.RANGE
@@ -354,20 +339,3 @@ def diagram_model(network: Network, plan: Plan | None = None, *,
     return Diagram(f"{network.name}: power flow", subtitle, placed, drawn,
                    tuple(c * (width + GAP_IN) for c in range(max(column.values()) + 1)), width,
                    high - low, plan is not None, top)
-
-
-def diagram_picture(network: Network, plan: Plan | None = None, *,
-                    group_chains: bool = False) -> Picture:
-    """The diagram drawn with matplotlib, with its legend and the safety caution.
-
-    Examples
-    --------
-    >>> import beamplan
-    >>> from beamplan.network.graph import build_network
-    >>> net = build_network(beamplan.load("layouts/pilot-line.yaml"))
-    >>> "litho-p2" in diagram_picture(net, beamplan.plan(net)).svg()
-    True
-    """
-    from beamplan.report.draw import draw_diagram
-
-    return draw_diagram(diagram_model(network, plan, group_chains=group_chains))

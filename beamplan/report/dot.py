@@ -15,7 +15,8 @@ import textwrap
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
 from beamplan.report import CAUTION
-from beamplan.report.diagram import PALETTE, diagram_model
+from beamplan.report.diagram import diagram_model
+from beamplan.report.palette import PALETTE
 
 __all__ = ["diagram_dot", "graphviz_picture", "summary_dot"]
 

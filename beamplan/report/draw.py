@@ -13,21 +13,23 @@ import textwrap
 from dataclasses import replace
 from typing import Any
 
+from beamplan.network.graph import Network
+from beamplan.optimise.result import Plan
 from beamplan.report import CAUTION
 from beamplan.report.diagram import (
     FONT_PT,
-    HEAT_BANDS,
     LINE_IN,
-    PALETTE,
     WIDTH_MAX_PT,
     WIDTH_MIN_PT,
     Box,
     Diagram,
+    diagram_model,
 )
+from beamplan.report.palette import HEAT_BANDS, PALETTE
 from beamplan.report.plots import Picture, _figure, _styled
 from beamplan.units import format_power
 
-__all__ = ["draw_diagram"]
+__all__ = ["diagram_picture", "draw_diagram"]
 
 
 def _canvas(width: float, height: float) -> tuple[Any, Any]:
@@ -225,3 +227,17 @@ def draw_diagram(d: Diagram) -> Picture:
             style="italic", va="top", color=PALETTE["ink"])
     return Picture(figure, "diagram")
 
+
+def diagram_picture(network: Network, plan: Plan | None = None, *,
+                    group_chains: bool = False) -> Picture:
+    """The diagram drawn with matplotlib, with its legend and the safety caution.
+
+    Examples
+    --------
+    >>> import beamplan
+    >>> from beamplan.network.graph import build_network
+    >>> net = build_network(beamplan.load("layouts/pilot-line.yaml"))
+    >>> "litho-p2" in diagram_picture(net, beamplan.plan(net)).svg()
+    True
+    """
+    return draw_diagram(diagram_model(network, plan, group_chains=group_chains))

@@ -20,24 +20,18 @@ from beamplan.network.behaviour import GIVEN
 from beamplan.network.graph import Network
 from beamplan.optimise.result import ElementResult, Plan
 from beamplan.report import CAUTION
-from beamplan.report.diagram import PALETTE, diagram_picture
 from beamplan.report.document import signed_percent
+from beamplan.report.draw import diagram_picture
+from beamplan.report.palette import PALETTE
 from beamplan.report.plots import Picture, headroom_chart, losses_chart
 from beamplan.units import format_power
+from beamplan.vocabulary import FAMILIES as FAMILY_INFO
+from beamplan.vocabulary import ScannerStatus, reported_families
 
 __all__ = ["CSS", "FAMILIES", "facts", "figure", "inline_svg", "page", "pct", "plan_html", "table"]
 
 #: What each family of binding constraint means, in words.
-FAMILIES = {
-    "heat": "an element absorbs as much as its heat limit allows",
-    "available": "a source gives all the power it has",
-    "max-power": "a scanner takes as much as its max_power accepts",
-    "share-low": "a splitter output is at the lower end of its share range",
-    "share-high": "a splitter output is at the upper end of its share range",
-    "range-low": "an attenuator is at its lowest transmission",
-    "range-high": "an attenuator is at its highest transmission",
-    "demand": "a scanner gets exactly its need, and that need holds the goal back",
-}
+FAMILIES: dict[str, str] = {f: FAMILY_INFO[f].meaning for f in reported_families()}
 
 CSS = string.Template("""
 :root { color-scheme: light; }
@@ -140,12 +134,13 @@ def _setting(e: ElementResult) -> str:
 def _scanners(plan: Plan) -> str:
     rows = [[s.id, format_power(s.need_w), format_power(s.delivered_w), pct(s.headroom),
              "-" if s.max_w is None else format_power(s.max_w), str(s.priority),
-             s.status if s.status == "met" else f"{s.status}: {format_power(s.shortfall_w)}"]
+             s.status if s.status == ScannerStatus.MET
+             else f"{s.status}: {format_power(s.shortfall_w)}"]
             for s in plan.scanners]
     out = [table("Power at each scanner's intermediate focus (IF)", ["scanner", "need",
                  "delivered", "headroom", "max_power", "priority", "status"], rows,
                  (1, 2, 3, 4, 5))]
-    short = [s for s in plan.scanners if s.status != "met"]
+    short = [s for s in plan.scanners if s.status != ScannerStatus.MET]
     if short:
         out.append("<h3>Why scanners fall short</h3>\n<ul>" + "".join(
             f"<li><strong>{escape(s.id)}</strong> is {escape(s.status)}, "
@@ -287,7 +282,8 @@ def plan_html(plan: Plan, network: Network, *, layout_path: str, version: str,
         summary.append(("wall plug", f"{plan.electrical_per_delivered:.0f} kW electrical per "
                                      "kW delivered at the IF"))
     settings = [e for e in plan.elements if e.setting is not None]
-    from beamplan.report.summary_diagram import SCALE_SCANNERS, at_scale, summary_picture
+    from beamplan.report.summary_diagram import SCALE_SCANNERS, at_scale
+    from beamplan.report.summary_draw import summary_picture
 
     folded = at_scale(network) if detail is None else not detail
     picture = summary_picture(network, plan) if folded else \

@@ -24,6 +24,7 @@ from beamplan.report.document import signed_number
 from beamplan.report.html import facts, figure, inline_svg, page, pct, table
 from beamplan.report.plots import headroom_across_cases, outage_impact
 from beamplan.units import format_power
+from beamplan.vocabulary import ScannerStatus
 
 __all__ = ["cases_html", "comparison_plans", "sweep_html"]
 
@@ -71,7 +72,7 @@ def _points(fraction: float) -> str:
 
 
 def _short(plan: Plan) -> str:
-    short = [s for s in plan.scanners if s.status in ("short", "cut off")]
+    short = [s for s in plan.scanners if s.status in (ScannerStatus.SHORT, ScannerStatus.CUT_OFF)]
     return ", ".join(f"{s.id} {s.status} -{format_power(s.shortfall_w)}" for s in short) \
         or "none"
 
@@ -114,15 +115,15 @@ def _scanner_cell(s: ScannerResult | None, base: ScannerResult | None, *,
     """Delivered power and headroom; in a case, also the change from the base."""
     if s is None:
         return "dropped" if base else "-"
-    if s.status == "out of service":
-        return "out of service"
+    if s.status == ScannerStatus.OUT_OF_SERVICE:
+        return str(ScannerStatus.OUT_OF_SERVICE)
     words = f"{format_power(s.delivered_w)}, {pct(s.headroom)}"
-    if not is_base and (base is None or base.status == "out of service"):
+    if not is_base and (base is None or base.status == ScannerStatus.OUT_OF_SERVICE):
         words += ", new"
     elif not is_base and base is not None:
         change = _signed(s.delivered_w - base.delivered_w, base.delivered_w)
         words += ", no change" if change == "0 W" else f", {change}"
-    return words + ("" if s.status == "met" else f", {s.status}")
+    return words + ("" if s.status == ScannerStatus.MET else f", {s.status}")
 
 
 def _scanners_table(comparison: Comparison) -> str:
@@ -200,7 +201,7 @@ def cases_html(comparison: Comparison, *, layout_path: str, cases_path: str | No
     (True, True, False)
     """
     when, base = _date(date), comparison.base
-    short = [c.name for c in comparison.cases if c.plan.status != "met"]
+    short = [c.name for c in comparison.cases if c.plan.status != ScannerStatus.MET]
     status = (f"{len(comparison.cases)} case(s) against the base layout, goal "
               f"{comparison.goal}: " + (f"{len(short)} of them leave a scanner short ("
                                         f"{', '.join(short)})" if short else
@@ -304,7 +305,7 @@ def _base_table(plan: Plan) -> str:
     return table("Power at each scanner's intermediate focus (IF) in the base plan",
                  ["scanner", "need", "delivered", "headroom", "status"],
                  [[s.id, format_power(s.need_w), format_power(s.delivered_w), pct(s.headroom),
-                   s.status if s.status == "met" else f"{s.status}: "
+                   s.status if s.status == ScannerStatus.MET else f"{s.status}: "
                    f"{format_power(s.shortfall_w)}"] for s in plan.scanners], (1, 2, 3))
 
 

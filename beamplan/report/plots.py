@@ -23,10 +23,11 @@ from collections.abc import Callable, Iterable, Sequence
 from typing import TYPE_CHECKING, Any, ParamSpec
 
 from beamplan.optimise.result import Plan
-from beamplan.report.diagram import PALETTE
 from beamplan.report.document import signed_percent
 from beamplan.report.files import write_atomic
+from beamplan.report.palette import PALETTE
 from beamplan.units import format_power
+from beamplan.vocabulary import ScannerStatus
 
 if TYPE_CHECKING:
     from beamplan.analyses.outages import OutageResult, SweepReport
@@ -166,9 +167,10 @@ def headroom_chart(plan: Plan) -> Picture:
                        "Headroom per scanner", f"{plan.layout}, goal {plan.goal}: lowest "
                        f"headroom {signed_percent(plan.headroom_factor - 1)}", legend)
     for i, s in enumerate(rows):
-        short = s.status != "met"
+        short = s.status != ScannerStatus.MET
         ax.barh(i, s.delivered_w, 0.56, color=PALETTE["paper" if short else "beam"],
-                edgecolor=ink, lw=0.6, hatch=("xxxx" if s.status == "cut off" else "////")
+                edgecolor=ink, lw=0.6, hatch=("xxxx" if s.status == ScannerStatus.CUT_OFF
+                                                   else "////")
                 if short else None)
         words = f"short {format_power(s.shortfall_w)}" if short else signed_percent(s.headroom)
         ax.annotate(words, (max(s.delivered_w, s.need_w, s.max_w or 0.0), i),
@@ -303,7 +305,7 @@ def headroom_across_cases(cases: Sequence[tuple[str, Plan]]) -> Picture:
     row = {sid: i for i, sid in enumerate(ids)}
     spread = 0.5 / max(len(cases), 1)
     for k, ((_, plan), mark) in enumerate(zip(cases, legend, strict=True)):
-        serving = [s for s in plan.scanners if s.status != "out of service"]
+        serving = [s for s in plan.scanners if s.status != ScannerStatus.OUT_OF_SERVICE]
         ax.plot([100 * s.headroom for s in serving],
                 [row[s.id] + (k - (len(cases) - 1) / 2) * spread for s in serving],
                 ls="none", marker=mark.get_marker(), ms=5, mfc=mark.get_markerfacecolor(),
@@ -351,10 +353,12 @@ def outage_impact(report: SweepReport, top: int = 20) -> Picture:
 
     ink, rows = PALETTE["ink"], report.results[:max(top, 0)]
     words = [_impact_words(r) for r in rows]
-    marks = [("met", PALETTE["beam"], None), ("short", PALETTE["paper"], "////"),
-             ("cut off", PALETTE["paper"], "xxxx")]
+    marks = [(ScannerStatus.MET, PALETTE["beam"], None),
+             (ScannerStatus.SHORT, PALETTE["paper"], "////"),
+             (ScannerStatus.CUT_OFF, PALETTE["paper"], "xxxx")]
     legend = [Patch(fc=fill, ec=ink, hatch=hatch, label=f"every scanner {name}"
-                    if name == "met" else f"a scanner {name}") for name, fill, hatch in marks]
+                    if name == ScannerStatus.MET else f"a scanner {name}")
+              for name, fill, hatch in marks]
     shown = f"the top {len(rows)} of {report.finished}" if len(rows) < report.finished \
         else f"all {report.finished}"
     right = 0.4 + 0.052 * max((len(w) for w in words), default=0)

@@ -15,18 +15,12 @@ from rich.text import Text
 
 from beamplan.optimise.sizing import Answer, Sizing
 from beamplan.units import format_power
+from beamplan.vocabulary import FAMILIES
 
 __all__ = ["key_words", "sizing_csv", "sizing_document", "sizing_renderable"]
 
-LIMIT_WORDS = {
-    "source": "source power",
-    "heat": "heat limit",
-    "max-power": "max_power",
-    "share-high": "share, upper bound",
-    "share-low": "share, lower bound",
-    "range-high": "transmission, upper bound",
-    "range-low": "transmission, lower bound",
-}
+#: The words for each limit that sizing may relax (from the vocabulary's registry).
+LIMIT_WORDS: dict[str, str] = {f: info.bound for f, info in FAMILIES.items() if info.bound}
 
 
 def _round(value: float | None) -> float | None:

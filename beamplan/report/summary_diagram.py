@@ -27,7 +27,6 @@ from __future__ import annotations
 
 import bisect
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING
 
 import networkx as nx
 
@@ -35,21 +34,20 @@ from beamplan.network.behaviour import Behaviour
 from beamplan.network.graph import Network
 from beamplan.optimise.result import Plan
 from beamplan.report.diagram import (
+    BINDS,
     LINE_IN,
-    PALETTE,
     Box,
     _box,
     _heat,
     link_powers,
 )
 from beamplan.report.document import signed_percent
+from beamplan.report.palette import PALETTE
 from beamplan.units import format_power
-
-if TYPE_CHECKING:
-    from beamplan.report.plots import Picture
+from beamplan.vocabulary import ScannerStatus
 
 __all__ = ["BOX_BUDGET", "SCALE_SCANNERS", "Fold", "Row", "Summary", "at_scale",
-           "dominator_parents", "focus_network", "summary_model", "summary_picture"]
+           "dominator_parents", "focus_network", "summary_model"]
 
 #: "At scale": more scanners than this and the picture is a summary by default.
 #: Our choice, no source: the detailed diagram of 40 scanners (about 400
@@ -207,7 +205,7 @@ def _fold(network: Network, plan: Plan | None, kids: dict[str | None, list[str]]
                 worst_headroom=worst.headroom if worst else None,
                 worst_scanner=worst.id if worst else None,
                 hottest_use=hottest[0] if hottest else None, hottest=hottest[1] if hottest
-                else None, short=sum(1 for r in got if r.status != "met"))
+                else None, short=sum(1 for r in got if r.status != ScannerStatus.MET))
 
 
 def _fold_box(network: Network, fold: Fold) -> Box:
@@ -268,8 +266,6 @@ def summary_model(network: Network, plan: Plan | None = None, *,
     powers = link_powers(network, plan) if plan else None
     folds = {r: _fold(network, plan, kids, r, powers) for r in roots}
     binds: dict[str, list[str]] = {}
-    from beamplan.report.diagram import BINDS
-
     for b in plan.binding if plan else ():
         binds.setdefault(b.subject, []).append(BINDS.get(b.family, b.family))
     boxes = {k: _box(network, plan, [k], tuple(dict.fromkeys(binds.get(k, [])))) for k in shown}
@@ -337,20 +333,3 @@ def focus_network(network: Network, node_id: str) -> Network:
                    nodes=tuple(n for n in network.nodes if n.id in inside),
                    links=tuple(replace(link, index=i) for i, link in enumerate(links)),
                    warnings=())
-
-
-def summary_picture(network: Network, plan: Plan | None = None, *,
-                    budget: int = BOX_BUDGET) -> Picture:
-    """The summary drawn with matplotlib, with its legend and the safety caution.
-
-    Examples
-    --------
-    >>> import beamplan
-    >>> from beamplan.network.graph import build_network
-    >>> net = build_network(beamplan.load("layouts/two-bay.yaml"))
-    >>> "a-fold and below" in summary_picture(net, beamplan.plan(net), budget=8).svg()
-    True
-    """
-    from beamplan.report.summary_draw import draw_summary
-
-    return draw_summary(summary_model(network, plan, budget=budget))

@@ -11,13 +11,16 @@ from __future__ import annotations
 import textwrap
 from typing import Any
 
+from beamplan.network.graph import Network
+from beamplan.optimise.result import Plan
 from beamplan.report import CAUTION
-from beamplan.report.diagram import PALETTE, Diagram
+from beamplan.report.diagram import Diagram
 from beamplan.report.draw import _canvas, _draw_box, _draw_legend, _legend_height
+from beamplan.report.palette import PALETTE
 from beamplan.report.plots import Picture, _styled
-from beamplan.report.summary_diagram import INDENT_IN, Summary
+from beamplan.report.summary_diagram import BOX_BUDGET, INDENT_IN, Summary, summary_model
 
-__all__ = ["draw_summary"]
+__all__ = ["draw_summary", "summary_picture"]
 
 _NOTE = ("Box text: power in, delivered, worst headroom, hottest heat use. "
          "beamplan draw --focus ID draws one subtree; --detail draws every box.")
@@ -76,3 +79,18 @@ def draw_summary(s: Summary) -> Picture:
     ax.text(margin, height - 0.2 - 0.15 * len(caution), "\n".join(caution), fontsize=6.0,
             style="italic", va="top", color=PALETTE["ink"])
     return Picture(figure, "summary")
+
+
+def summary_picture(network: Network, plan: Plan | None = None, *,
+                    budget: int = BOX_BUDGET) -> Picture:
+    """The summary drawn with matplotlib, with its legend and the safety caution.
+
+    Examples
+    --------
+    >>> import beamplan
+    >>> from beamplan.network.graph import build_network
+    >>> net = build_network(beamplan.load("layouts/two-bay.yaml"))
+    >>> "a-fold and below" in summary_picture(net, beamplan.plan(net), budget=8).svg()
+    True
+    """
+    return draw_summary(summary_model(network, plan, budget=budget))

@@ -21,11 +21,13 @@ from beamplan.optimise.sizing import Sizing
 from beamplan.report import CAUTION
 from beamplan.report.document import signed_percent, signed_power
 from beamplan.units import format_power
+from beamplan.vocabulary import ScannerStatus
 
 __all__ = ["PLURALS", "diagnostics_text", "plan_renderable", "plural", "signed_percent",
            "signed_power", "status_note"]
 
-_STATUS_STYLE = {"met": "green", "short": "bold red", "cut off": "bold red"}
+_STATUS_STYLE = {ScannerStatus.MET: "green", ScannerStatus.SHORT: "bold red",
+                 ScannerStatus.CUT_OFF: "bold red"}
 
 
 def _pct(value: float) -> str:
@@ -106,7 +108,7 @@ def _scanners(plan: Plan) -> Table:
         table.add_row(s.id, format_power(s.need_w), format_power(s.delivered_w),
                       _pct(s.headroom), ceiling,
                       format_power(s.max_power_w) if s.max_power_w is not None else "-",
-                      Text(s.status if s.status != "short" else
+                      Text(s.status if s.status != ScannerStatus.SHORT else
                            f"short {format_power(s.shortfall_w)}",
                            style=_STATUS_STYLE.get(s.status, "")))
     return table
@@ -216,8 +218,8 @@ def status_note(plan: Plan) -> str:
     >>> status_note(beamplan.plan("layouts/pilot-line.yaml"))
     ''
     """
-    working = [s for s in plan.scanners if s.status != "out of service"]
-    short = sum(s.status != "met" for s in working)
+    working = [s for s in plan.scanners if s.status != ScannerStatus.OUT_OF_SERVICE]
+    short = sum(s.status != ScannerStatus.MET for s in working)
     offline = len(plan.scanners) - len(working)
     note = f"  ({short} of {len(working)} {plural('scanner', len(working))} short)" if short \
         else ""
@@ -286,7 +288,7 @@ def _over(plan: Plan) -> list[Any]:
 def _shortfalls(plan: Plan) -> list[Any]:
     out: list[Any] = []
     for s in plan.scanners:
-        if s.status == "met":
+        if s.status == ScannerStatus.MET:
             continue
         text = Text(f"{s.id} is short by {format_power(s.shortfall_w)}: ", style="bold")
         text.append("; ".join(s.limits))

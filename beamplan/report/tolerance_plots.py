@@ -6,7 +6,7 @@ import numpy as np
 
 from beamplan.analyses.tolerance import EDGES
 from beamplan.analyses.tolerance_summary import ToleranceSummary
-from beamplan.report.diagram import PALETTE
+from beamplan.report.palette import PALETTE
 from beamplan.report.plots import CASE_STYLES, Picture, _axes, _grid, _left, _styled
 
 __all__ = ["headroom_cdf", "scanners_of_interest", "sensitivity_chart"]

@@ -37,9 +37,9 @@ from beamplan.layout.loader import parse_layout
 from beamplan.layout.yamlpos import parse_yaml
 from beamplan.network.graph import build_network
 from beamplan.optimise.planner import plan_network
-from beamplan.report.diagram import diagram_picture
+from beamplan.report.draw import diagram_picture
 from beamplan.report.html import plan_html
-from beamplan.report.summary_diagram import summary_picture
+from beamplan.report.summary_draw import summary_picture
 
 ROOT = sys.path[0]
 
