@@ -16,26 +16,14 @@ from beamplan.layout.model import (
     UndulatorSpec,
 )
 from beamplan.layout.reader import ID_PATTERN, MISSING, Context, MapReader
+from beamplan.layout.spec import SECTIONS, tool_keys
 from beamplan.layout.yamlpos import Path
 
 __all__ = ["TOOL_KEYS", "entries", "read_scanners", "read_sources"]
 
-# Layout key -> (dimension or "int", field of beamplan.physics.demand.ScannerTool).
-TOOL_KEYS: dict[str, tuple[str, str]] = {
-    "fields": ("int", "fields_per_wafer"),
-    "field_width": ("length", "field_width_m"),
-    "field_length": ("length", "field_length_m"),
-    "slit_height": ("length", "slit_height_m"),
-    "wafer_overhead": ("time", "wafer_overhead_s"),
-    "field_overhead": ("time", "field_overhead_s"),
-    "stage_speed": ("speed", "stage_max_speed_m_s"),
-    "reflections": ("int", "mirror_reflections"),
-    "mirror_reflectivity": ("fraction", "mirror_reflectivity"),
-    "mask_reflectivity": ("fraction", "mask_reflectivity"),
-    "pellicle": ("fraction", "pellicle_transmission"),
-    "other_losses": ("fraction", "other_losses_factor"),
-    "dose_margin": ("fraction", "dose_control_margin"),
-}
+# Layout key -> (dimension or "int", field of beamplan.physics.demand.ScannerTool),
+# from the scanner table of beamplan.layout.spec.
+TOOL_KEYS: dict[str, tuple[str, str]] = tool_keys()
 
 
 def entries(ctx: Context, section: dict[str, Any], name: str, noun: str,
@@ -70,7 +58,7 @@ def _undulator(r: MapReader) -> UndulatorSpec | None:
     harmonic = u.integer("harmonic", default=1, minimum=1, maximum=99)
     tunable = bool(u.raw("tunable") is True)
     tolerance = u.quantity("tolerance", "fraction", default=0.01, minimum=0.0)
-    u.finish()
+    u.finish(table=SECTIONS["undulator"])
     if energy is None or period is None:
         return None
     if (k is None) == (field is None):
@@ -149,7 +137,7 @@ def read_sources(ctx: Context, section: dict[str, Any]) -> list[SourceSpec]:
         undulator = _undulator(r)
         note = r.text("note")
         in_service = r.in_use("a source")
-        r.finish()
+        r.finish(table=SECTIONS["source"])
         if power is not None and wall is not None and surplus in SURPLUS_MODES:
             out.append(SourceSpec(sid, power, wall[0], note, ctx.positions.key(path),
                                   degree or 0.0, angle or 0.0, undulator, in_service,
@@ -252,7 +240,7 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
         note = r.text("note")
         in_service = r.in_use("a scanner")
         cap_at_useful = r.flag("cap_at_useful", default=True)
-        r.finish()
+        r.finish(table=SECTIONS["scanner"])
         if len(ctx.diagnostics) > before and any(d.is_error for d in ctx.diagnostics[before:]):
             continue
         if need is None and demand is None:

@@ -29,6 +29,7 @@ from beamplan.layout.model import (
     SwitchSpec,
 )
 from beamplan.layout.reader import ID_PATTERN, MISSING, MapReader
+from beamplan.layout.spec import SECTIONS, element_keys
 from beamplan.units import UnitError, parse_quantity
 
 __all__ = ["KINDS", "read_element"]
@@ -52,7 +53,7 @@ def _coating(r: MapReader) -> CoatingSpec | None:
     density = sub.quantity("density", "density", minimum=0.0, strict_minimum=True)
     delta = sub.quantity("delta", "fraction")
     beta = sub.quantity("beta", "fraction", minimum=0.0)
-    sub.finish()
+    sub.finish(table=SECTIONS["coating"])
     if (delta is None) != (beta is None):
         r.ctx.error("missing-key", f"{r.subject}: a measured index needs both 'delta' and "
                     "'beta'", r.value_loc("coating"), "give both, or neither")
@@ -103,7 +104,7 @@ def _interlayers(sub: MapReader, default: InterlayerSpec | None
                             default=base.absorber_on_spacer_m)
     on_absorber = il.quantity("spacer_on_absorber", "length", minimum=0.0,
                               default=base.spacer_on_absorber_m)
-    il.finish()
+    il.finish(table=SECTIONS["interlayers"])
     if on_spacer is None or on_absorber is None or (density is None and il.has("density")):
         return False, None
     return True, InterlayerSpec(material or base.material, density, on_spacer, on_absorber)
@@ -152,7 +153,7 @@ def read_multilayer(r: MapReader, key: str = "multilayer") -> MultilayerSpec | N
     roughness = sub.quantity("roughness", "length", default=rough_default, minimum=0.0)
     is_mosi = (absorber, spacer) == (base.absorber, base.spacer)
     read_ok, interlayers = _interlayers(sub, base.interlayers if is_mosi else None)
-    sub.finish(tuple(RENAMED_MULTILAYER_KEYS))
+    sub.finish(tuple(RENAMED_MULTILAYER_KEYS), SECTIONS["multilayer"])
     if not (ok and read_ok) or None in (period, fraction, periods, cap_m, roughness):
         return None
     assert period is not None and fraction is not None and periods is not None
@@ -262,7 +263,7 @@ def _splitter(r: MapReader, common: Common) -> ElementSpec | None:
         out = MapReader(r.ctx, settings, {k: (*path, k) for k in settings}, sub, path)
         efficiency = out.fraction("efficiency", default=1.0)
         span = out.fraction_range("fraction", default=(0.0, 1.0))
-        out.finish()
+        out.finish(table=SECTIONS["output"])
         if efficiency is None or span is None:
             ok = False
             continue
@@ -333,5 +334,5 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
                       "part": part, "note": note, "location": r.ctx.positions.key(r.where),
                       "derate": 1.0 if derate is None else derate, "in_service": in_service}
     spec = reader(r, common)
-    r.finish()
+    r.finish(table=element_keys(kind))
     return spec

@@ -1,0 +1,109 @@
+"""``beamplan completion bash|zsh|fish``: shell completion generated from the parser.
+
+The script comes from the argparse parser through shtab. Options that take an
+element, source or scanner id (``--fail``, ``--drop``, ``--focus``, sweep
+``--only``) complete the ids of the layout named on the command line: the
+script runs the hidden ``beamplan ids WORDS...``, which prints the ids of the
+first layout file among the words (nothing when there is none or it is broken).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+from typing import Any
+
+from beamplan.errors import BeamplanError, ExitCode, UsageError
+
+__all__ = ["ID_OPTIONS", "SHELLS", "register", "script"]
+
+SHELLS = ("bash", "zsh", "fish")
+#: (subcommand, option) pairs whose values are ids of the layout.
+ID_OPTIONS = (("cases", "--fail"), ("cases", "--drop"), ("draw", "--focus"),
+              ("sweep", "--only"))
+
+_IDS = {
+    "bash": "_beamplan_layout_ids",
+    "zsh": "($(beamplan ids ${words} 2>/dev/null))",
+    "fish": "(beamplan ids (commandline -opc) 2>/dev/null)",
+    "preamble": {"bash": "# ids of the layout named on the command line\n"
+                         "_beamplan_layout_ids() {\n"
+                         "  compgen -W \"$(beamplan ids \"${COMP_WORDS[@]}\" 2>/dev/null)\" "
+                         "-- \"$1\"\n}\n"},
+}
+
+
+def _subparsers(parser: argparse.ArgumentParser) -> dict[str, argparse.ArgumentParser]:
+    for action in parser._actions:
+        if isinstance(action, argparse._SubParsersAction):
+            return dict(action.choices)
+    return {}
+
+
+def script(shell: str) -> str:
+    """The completion script for ``shell`` (bash, zsh or fish).
+
+    Examples
+    --------
+    >>> "plan" in script("bash")
+    True
+    """
+    import shtab
+
+    from beamplan.cli.main import build_parser
+
+    parser = build_parser()
+    commands = _subparsers(parser)
+    for command, option in ID_OPTIONS:
+        sub = commands.get(command)
+        for action in sub._actions if sub is not None else ():
+            if option in action.option_strings:
+                action.complete = _IDS  # type: ignore[attr-defined]
+    for name in ("check", "plan", "draw", "cases", "sweep"):
+        sub = commands.get(name)
+        for action in sub._actions if sub is not None else ():
+            if action.dest == "layout" and not action.option_strings:
+                action.complete = shtab.FILE  # type: ignore[attr-defined]
+    return str(shtab.complete(parser, shell))
+
+
+def _completion(args: argparse.Namespace) -> int:
+    sys.stdout.write(script(args.shell))
+    return int(ExitCode.OK)
+
+
+def _ids(args: argparse.Namespace) -> int:
+    from beamplan.layout.loader import load_layout
+
+    for word in args.words:
+        if word.endswith((".yaml", ".yml")) and os.path.isfile(word):
+            try:
+                layout = load_layout(word)
+            except (BeamplanError, OSError, UsageError):
+                return int(ExitCode.OK)
+            sys.stdout.write("".join(f"{node}\n" for node in layout.node_ids))
+            break
+    return int(ExitCode.OK)
+
+
+def register(sub: Any) -> None:
+    """Add the ``completion`` subcommand and the hidden ``ids`` helper.
+
+    Examples
+    --------
+    >>> import argparse
+    >>> parser = argparse.ArgumentParser()
+    >>> register(parser.add_subparsers())
+    """
+    completion = sub.add_parser("completion", help="print a shell completion script",
+                                description="Print the completion script for bash, zsh or "
+                                "fish, e.g. 'source <(beamplan completion bash)'.")
+    completion.add_argument("shell", choices=SHELLS, help="the shell")
+    completion.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    completion.set_defaults(handler=_completion)
+    ids = sub.add_parser("ids", description="print the ids of the first layout file among "
+                         "WORDS (used by the completion scripts)")
+    ids.add_argument("words", nargs=argparse.REMAINDER, help="command-line words")
+    ids.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    ids.set_defaults(handler=_ids)
