@@ -16,12 +16,14 @@ from typing import Any
 
 from beamplan.errors import BeamplanError, ExitCode, UsageError
 
-__all__ = ["ID_OPTIONS", "SHELLS", "register", "script"]
+__all__ = ["ID_OPTIONS", "KEY_OPTIONS", "SHELLS", "register", "script", "settable_keys"]
 
 SHELLS = ("bash", "zsh", "fish")
 #: (subcommand, option) pairs whose values are ids of the layout.
 ID_OPTIONS = (("cases", "--fail"), ("cases", "--drop"), ("draw", "--focus"),
               ("sweep", "--only"))
+#: (subcommand, option) pairs whose values start ``ID.KEY=`` with a settable key.
+KEY_OPTIONS = (("cases", "--set"), ("cases", "--scale"))
 
 _IDS = {
     "bash": "_beamplan_layout_ids",
@@ -31,6 +33,16 @@ _IDS = {
                          "_beamplan_layout_ids() {\n"
                          "  compgen -W \"$(beamplan ids \"${COMP_WORDS[@]}\" 2>/dev/null)\" "
                          "-- \"$1\"\n}\n"},
+}
+
+_KEYS = {
+    "bash": "_beamplan_layout_keys",
+    "zsh": "($(beamplan ids --keys ${words} 2>/dev/null))",
+    "fish": "(beamplan ids --keys (commandline -opc) 2>/dev/null)",
+    "preamble": {"bash": "# ID.KEY= of the settable keys of the layout on the command line\n"
+                         "_beamplan_layout_keys() {\n"
+                         "  compgen -W \"$(beamplan ids --keys \"${COMP_WORDS[@]}\" "
+                         "2>/dev/null)\" -- \"$1\"\n}\n"},
 }
 
 
@@ -55,11 +67,12 @@ def script(shell: str) -> str:
 
     parser = build_parser()
     commands = _subparsers(parser)
-    for command, option in ID_OPTIONS:
-        sub = commands.get(command)
-        for action in sub._actions if sub is not None else ():
-            if option in action.option_strings:
-                action.complete = _IDS  # type: ignore[attr-defined]
+    for pairs, completer in ((ID_OPTIONS, _IDS), (KEY_OPTIONS, _KEYS)):
+        for command, option in pairs:
+            sub = commands.get(command)
+            for action in sub._actions if sub is not None else ():
+                if option in action.option_strings:
+                    action.complete = completer  # type: ignore[attr-defined]
     for name in ("check", "plan", "draw", "cases", "sweep"):
         sub = commands.get(name)
         for action in sub._actions if sub is not None else ():
@@ -73,6 +86,25 @@ def _completion(args: argparse.Namespace) -> int:
     return int(ExitCode.OK)
 
 
+def settable_keys(layout: Any) -> list[str]:
+    """``ID.KEY=`` for every key a what-if change may set on each item of ``layout``.
+
+    Examples
+    --------
+    >>> from beamplan.layout.loader import load_layout
+    >>> "fel-main.power=" in settable_keys(load_layout("layouts/two-bay.yaml"))
+    True
+    """
+    from beamplan.layout.spec import element_keys, settable
+
+    out = [f"{s.id}.{key}=" for s in layout.sources for key in settable("source")]
+    for element in layout.elements:
+        own = {spec.name for spec in element_keys(element.kind)}
+        out += [f"{element.id}.{key}=" for key in settable("element") if key in own]
+    out += [f"{s.id}.{key}=" for s in layout.scanners for key in settable("scanner")]
+    return out
+
+
 def _ids(args: argparse.Namespace) -> int:
     from beamplan.layout.loader import load_layout
 
@@ -82,7 +114,8 @@ def _ids(args: argparse.Namespace) -> int:
                 layout = load_layout(word)
             except (BeamplanError, OSError, UsageError):
                 return int(ExitCode.OK)
-            sys.stdout.write("".join(f"{node}\n" for node in layout.node_ids))
+            words = settable_keys(layout) if args.keys else list(layout.node_ids)
+            sys.stdout.write("".join(f"{word}\n" for word in words))
             break
     return int(ExitCode.OK)
 
@@ -104,6 +137,7 @@ def register(sub: Any) -> None:
     completion.set_defaults(handler=_completion)
     ids = sub.add_parser("ids", description="print the ids of the first layout file among "
                          "WORDS (used by the completion scripts)")
+    ids.add_argument("--keys", action="store_true", help="print ID.KEY= of settable keys")
     ids.add_argument("words", nargs=argparse.REMAINDER, help="command-line words")
     ids.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     ids.set_defaults(handler=_ids)

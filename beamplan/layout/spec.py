@@ -243,7 +243,7 @@ SECTIONS: dict[str, tuple[KeySpec, ...]] = {
           tool="mirror_reflectivity", minimum=0.0, maximum=1.0),
         K("mask_reflectivity", "quantity", "mask reflectivity", "fraction",
           tool="mask_reflectivity", minimum=0.0, maximum=1.0),
-        K("pellicle", "quantity", "pellicle transmission, one pass", "fraction",
+        K("pellicle", "quantity", "pellicle transmission, one pass (crossed twice)", "fraction",
           tool="pellicle_transmission", minimum=0.0, maximum=1.0),
         K("other_losses", "quantity", "further transmission factor", "fraction",
           tool="other_losses_factor", minimum=0.0, maximum=1.0),
