@@ -7,6 +7,7 @@ parts, case files) is one :class:`KeySpec`: its type, dimension and unit,
 default, allowed range, one-line doc, whether it is required, and whether a
 what-if change may set or scale it. From these tables come
 
+* the dimension and range of the quantities the readers read (:func:`quantity`);
 * the keys each reader accepts (:func:`accepted`, used by
   :meth:`~beamplan.layout.reader.MapReader.finish`, which also checks a key
   that no reader code reads by its description, see :func:`read_by_spec`);
@@ -17,8 +18,9 @@ what-if change may set or scale it. From these tables come
 
 Plain frozen dataclasses are used rather than pydantic models: the readers
 keep their located FILE:LINE:COL errors from the YAML positions, and start-up
-stays as it is (importing pydantic costs about 0.15 s on this machine,
-measured with ``python -X importtime``; ``check`` must stay below 0.4 s).
+stays as it is (importing pydantic and building one model took 0.17 to 0.31 s
+wall on this machine against 0.03 s for a bare interpreter; ``check`` must stay
+below 0.4 s, see tests/perf/bench_check.py).
 """
 
 from __future__ import annotations
@@ -27,8 +29,8 @@ import math
 from dataclasses import dataclass
 from typing import Any
 
-__all__ = ["CASE_VERBS", "KINDS", "SECTIONS", "KeySpec", "accepted", "element_keys",
-           "settable", "tool_keys"]
+__all__ = ["CASE_VERBS", "KINDS", "SECTIONS", "KeySpec", "accepted", "element_keys", "find",
+           "quantity", "read_by_spec", "settable", "tool_keys"]
 
 
 @dataclass(frozen=True)
@@ -340,6 +342,29 @@ def tool_keys() -> dict[str, tuple[str, str]]:
 def find(section: str, key: str) -> KeySpec | None:
     """The description of ``key`` in ``section``, or None."""
     return next((s for s in SECTIONS.get(section, ()) if s.name == key), None)
+
+
+def quantity(reader: Any, section: str, name: str, default: float | None = None
+             ) -> float | None:
+    """Read the quantity ``name`` of ``section`` with the dimension and range of its table.
+
+    Examples
+    --------
+    >>> from beamplan.layout.reader import Context, MapReader
+    >>> from beamplan.layout.yamlpos import parse_yaml
+    >>> doc = parse_yaml("d: {length: 40 m}", "x.yaml")
+    >>> r = MapReader(Context(doc.positions), doc.data["d"], {"length": ("d", "length")},
+    ...               "element 'd'", ("d",))
+    >>> quantity(r, "drift", "length")
+    40.0
+    """
+    spec = find(section, name)
+    if spec is None or spec.type != "quantity":
+        raise KeyError(f"no quantity '{name}' in section '{section}'")
+    value: float | None = reader.quantity(
+        name, spec.dimension, required=spec.required, default=default, minimum=spec.minimum,
+        maximum=spec.maximum, strict_minimum=spec.exclusive)
+    return value
 
 
 def read_by_spec(reader: Any, spec: KeySpec) -> None:
