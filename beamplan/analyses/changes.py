@@ -38,6 +38,7 @@ from beamplan.layout.model import (
     SwitchSpec,
 )
 from beamplan.layout.positions import Positions
+from beamplan.layout.spec import settable
 from beamplan.layout.yamlpos import YamlDocument
 
 __all__ = ["SETTABLE", "Change", "ChangeError", "apply_change", "command_line_document",
@@ -45,17 +46,9 @@ __all__ = ["SETTABLE", "Change", "ChangeError", "apply_change", "command_line_do
 
 # Settable keys: the layout key -> (spec field, dimension). Scaling a computed
 # reflectivity or transmission scales the element's derate factor instead.
+# Derived from the tables of beamplan.layout.spec (``settable=`` on a key).
 SETTABLE: dict[str, dict[str, tuple[str, str]]] = {
-    "source": {"power": ("power_w", "power"), "electrical": ("electrical_w", "power")},
-    "element": {"heat_limit": ("heat_limit_w", "power"), "derate": ("derate", "fraction"),
-                "reflectivity": ("reflectivity", "fraction"),
-                "transmission": ("transmission", "fraction"),
-                "efficiency": ("efficiency", "fraction"),
-                "grazing": ("grazing_rad", "angle"), "incidence": ("incidence_rad", "angle"),
-                "roughness": ("roughness_m", "length"), "select": ("select", "input")},
-    "scanner": {"power": ("need_w", "power"), "max_power": ("max_w", "power"),
-                "dose": ("dose_j_m2", "dose"), "wph": ("wafers_per_hour", "rate")},
-}
+    group: settable(group) for group in ("source", "element", "scanner")}
 
 
 @dataclass(frozen=True)
@@ -136,9 +129,9 @@ def _target(layout: Layout, change: Change, dotted: str) -> tuple[Any, str, str]
         raise _missing(change, layout, item_id, "source, element or scanner")
     group = ("source" if isinstance(item, SourceSpec) else
              "scanner" if isinstance(item, ScannerSpec) else "element")
-    if key not in SETTABLE[group]:
-        hint = did_you_mean(key, SETTABLE[group]) or \
-            f"the keys here are: {', '.join(SETTABLE[group])}"
+    if key not in settable(group):
+        hint = did_you_mean(key, settable(group)) or \
+            f"the keys here are: {', '.join(settable(group))}"
         raise ChangeError(change, f"'{key}' cannot be changed on {group} '{item_id}'", hint)
     return item, group, key
 
@@ -195,7 +188,7 @@ def _set_or_scale(layout: Layout, change: Change, scale: bool) -> Layout:
         if key == "select":
             layout = _replace_item(layout, _select(layout, change, item, dotted, raw, scale))
             continue
-        field_name, dimension = SETTABLE[group][key]
+        field_name, dimension = settable(group)[key]
         computed = (isinstance(item, MirrorSpec) and key == "reflectivity"
                     and item.reflectivity is None) or (
             key == "transmission" and getattr(item, "transmission", 1.0) is None)

@@ -23,29 +23,30 @@ _WPH = A.Bounds(0.01, 1e4, "[0.01, 10000] wph")
 _POWER = A.Bounds(0.0, 1e7, "[0, 10 MW]")
 _WAVELENGTH = A.Bounds(0.0, 1.0, "(0, 1 m]", low_open=True)
 
-# ScannerTool field, option, dimension (None: a count), what it is, unit and scale for --help,
-# and the range (a count: its largest value).
-_TOOL_OPTIONS: tuple[tuple[str, str, str | None, str, str, float, Any], ...] = (
-    ("fields_per_wafer", "--fields", None, "exposure fields per wafer", "", 1.0, 10_000),
-    ("slit_height_m", "--slit-height", "length", "slit height along the scan", "mm", 1e3, _SIZE),
-    ("wafer_overhead_s", "--wafer-overhead", "time", "time per wafer not spent in fields",
-     "s", 1.0, _TIME),
-    ("field_overhead_s", "--field-overhead", "time", "time per field not spent scanning",
-     "s", 1.0, _TIME),
-    ("stage_max_speed_m_s", "--stage-speed", "speed", "maximum scan speed", "m/s", 1.0, _SPEED),
-    ("mirror_reflections", "--reflections", None, "mirror reflections IF to wafer, mask "
-     "excluded", "", 1.0, 100),
-    ("mirror_reflectivity", "--mirror-reflectivity", "fraction", "reflectivity of each mirror",
-     "", 1.0, FRACTION),
-    ("mask_reflectivity", "--mask-reflectivity", "fraction", "mask reflectivity", "", 1.0,
-     FRACTION),
-    ("pellicle_transmission", "--pellicle", "fraction", "pellicle transmission, one pass "
-     "(crossed twice)", "", 1.0, FRACTION),
-    ("other_losses_factor", "--other-losses", "fraction", "further transmission factor", "",
-     1.0, FRACTION),
-    ("dose_control_margin", "--dose-margin", "fraction", "share of IF power held back for dose "
-     "control", "", 1.0, FRACTION),
-)
+# Per ScannerTool field: unit and scale for --help, and the range (a count: its largest
+# value). The option name, dimension and wording come from the scanner keys of
+# beamplan.layout.spec (``--`` + the layout key); the field width and length are --field.
+_TOOL_DISPLAY: dict[str, tuple[str, float, Any]] = {
+    "fields_per_wafer": ("", 1.0, 10_000), "slit_height_m": ("mm", 1e3, _SIZE),
+    "wafer_overhead_s": ("s", 1.0, _TIME), "field_overhead_s": ("s", 1.0, _TIME),
+    "stage_max_speed_m_s": ("m/s", 1.0, _SPEED), "mirror_reflections": ("", 1.0, 100),
+    "mirror_reflectivity": ("", 1.0, FRACTION), "mask_reflectivity": ("", 1.0, FRACTION),
+    "pellicle_transmission": ("", 1.0, FRACTION), "other_losses_factor": ("", 1.0, FRACTION),
+    "dose_control_margin": ("", 1.0, FRACTION),
+}
+
+
+def _tool_options() -> tuple[tuple[str, str, str | None, str, str, float, Any], ...]:
+    """(field, option, dimension or None for a count, doc, unit, scale, range) per tool key."""
+    from beamplan.layout.spec import SECTIONS
+
+    return tuple((spec.tool, "--" + spec.name.replace("_", "-"),
+                  None if spec.type == "int" else spec.dimension, spec.doc,
+                  *_TOOL_DISPLAY[spec.tool])
+                 for spec in SECTIONS["scanner"] if spec.tool in _TOOL_DISPLAY)
+
+
+_TOOL_OPTIONS = _tool_options()
 _FLOOR_OPTIONS = (("critical-area", "area", A.Bounds(0.0, 1e-6, "(0, 1 mm^2]", low_open=True)),
                   ("absorption", "absorption",
                    A.Bounds(0.0, 1e12, "(0, 1/pm]", low_open=True)),

@@ -126,3 +126,12 @@ def register(sub: Any) -> None:
     from beamplan.cli import cost
 
     cost.register(sub)
+    from beamplan.cli import schema
+
+    schema.register(sub)
+    from beamplan.cli import new
+
+    new.register(sub)
+    from beamplan.cli import completion
+
+    completion.register(sub)

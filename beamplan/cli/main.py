@@ -37,6 +37,7 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     sub.required = True
     commands.register(sub)
+    parser.set_defaults(root_parser=parser)  # for commands that describe the whole CLI
     return parser
 
 

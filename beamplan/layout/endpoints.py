@@ -16,26 +16,14 @@ from beamplan.layout.model import (
     UndulatorSpec,
 )
 from beamplan.layout.reader import ID_PATTERN, MISSING, Context, MapReader
+from beamplan.layout.spec import SECTIONS, quantity, tool_keys
 from beamplan.layout.yamlpos import Path
 
 __all__ = ["TOOL_KEYS", "entries", "read_scanners", "read_sources"]
 
-# Layout key -> (dimension or "int", field of beamplan.physics.demand.ScannerTool).
-TOOL_KEYS: dict[str, tuple[str, str]] = {
-    "fields": ("int", "fields_per_wafer"),
-    "field_width": ("length", "field_width_m"),
-    "field_length": ("length", "field_length_m"),
-    "slit_height": ("length", "slit_height_m"),
-    "wafer_overhead": ("time", "wafer_overhead_s"),
-    "field_overhead": ("time", "field_overhead_s"),
-    "stage_speed": ("speed", "stage_max_speed_m_s"),
-    "reflections": ("int", "mirror_reflections"),
-    "mirror_reflectivity": ("fraction", "mirror_reflectivity"),
-    "mask_reflectivity": ("fraction", "mask_reflectivity"),
-    "pellicle": ("fraction", "pellicle_transmission"),
-    "other_losses": ("fraction", "other_losses_factor"),
-    "dose_margin": ("fraction", "dose_control_margin"),
-}
+# Layout key -> (dimension or "int", field of beamplan.physics.demand.ScannerTool),
+# from the scanner table of beamplan.layout.spec.
+TOOL_KEYS: dict[str, tuple[str, str]] = tool_keys()
 
 
 def entries(ctx: Context, section: dict[str, Any], name: str, noun: str,
@@ -62,15 +50,14 @@ def _undulator(r: MapReader) -> UndulatorSpec | None:
     if r.mapping("undulator") is None:
         return None
     u = r.sub("undulator", f"{r.subject} undulator")
-    energy = u.quantity("energy", "electron energy", required=True, minimum=0.0,
-                        strict_minimum=True)
-    period = u.quantity("period", "length", required=True, minimum=0.0, strict_minimum=True)
+    energy = quantity(u, "undulator", "energy")
+    period = quantity(u, "undulator", "period")
     k = _plain(u, "k")
-    field = u.quantity("field", "magnetic field", minimum=0.0)
+    field = quantity(u, "undulator", "field")
     harmonic = u.integer("harmonic", default=1, minimum=1, maximum=99)
     tunable = bool(u.raw("tunable") is True)
-    tolerance = u.quantity("tolerance", "fraction", default=0.01, minimum=0.0)
-    u.finish()
+    tolerance = quantity(u, "undulator", "tolerance", default=0.01)
+    u.finish(table=SECTIONS["undulator"])
     if energy is None or period is None:
         return None
     if (k is None) == (field is None):
@@ -144,12 +131,12 @@ def read_sources(ctx: Context, section: dict[str, Any]) -> list[SourceSpec]:
         if surplus not in SURPLUS_MODES:
             r._bad("surplus", f"'surplus' is {surplus!r}",
                    f"give one of {', '.join(SURPLUS_MODES)}")
-        degree = r.quantity("polarisation", "fraction", default=0.0, minimum=0.0, maximum=1.0)
-        angle = r.quantity("polarisation_angle", "angle", default=0.0)
+        degree = quantity(r, "source", "polarisation", default=0.0)
+        angle = quantity(r, "source", "polarisation_angle", default=0.0)
         undulator = _undulator(r)
         note = r.text("note")
         in_service = r.in_use("a source")
-        r.finish()
+        r.finish(table=SECTIONS["source"])
         if power is not None and wall is not None and surplus in SURPLUS_MODES:
             out.append(SourceSpec(sid, power, wall[0], note, ctx.positions.key(path),
                                   degree or 0.0, angle or 0.0, undulator, in_service,
@@ -206,17 +193,16 @@ def _demand(r: MapReader, profile: str | None) -> DemandSpec | None:
         if value is not None:
             tool.append((name, value))
     train = read_multilayer(r, "mirror_multilayer")
-    incidence = r.quantity("mirror_incidence", "angle", default=0.0, minimum=0.0,
-                           maximum=1.5)
+    incidence = quantity(r, "scanner", "mirror_incidence", default=0.0)
     if train is not None and any(name == "mirror_reflectivity" for name, _ in tool):
         r.ctx.error("bad-value", f"{r.subject}: give 'mirror_reflectivity' or "
                     "'mirror_multilayer', not both", r.key_loc("mirror_multilayer"),
                     "a computed multilayer replaces the fixed value")
         return None
-    area = r.quantity("critical_area", "area", minimum=0.0, strict_minimum=True)
-    alpha = r.quantity("resist_absorption", "absorption", minimum=0.0, strict_minimum=True)
-    thickness = r.quantity("resist_thickness", "length", minimum=0.0, strict_minimum=True)
-    noise = r.quantity("noise", "fraction", minimum=0.0, strict_minimum=True)
+    area = quantity(r, "scanner", "critical_area")
+    alpha = quantity(r, "scanner", "resist_absorption")
+    thickness = quantity(r, "scanner", "resist_thickness")
+    noise = quantity(r, "scanner", "noise")
     stochastic = (area, alpha, thickness, noise)
     if any(v is not None for v in stochastic) and any(v is None for v in stochastic):
         r.ctx.error("missing-key", f"{r.subject}: the stochastic dose floor needs "
@@ -247,12 +233,12 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
         before = len(ctx.diagnostics)
         need = r.quantity("power", "power", minimum=0.0, strict_minimum=True)
         demand = _demand(r, profile)
-        max_w = r.quantity("max_power", "power", minimum=0.0)
+        max_w = quantity(r, "scanner", "max_power")
         priority = r.integer("priority", default=1, minimum=1, maximum=1000)
         note = r.text("note")
         in_service = r.in_use("a scanner")
         cap_at_useful = r.flag("cap_at_useful", default=True)
-        r.finish()
+        r.finish(table=SECTIONS["scanner"])
         if len(ctx.diagnostics) > before and any(d.is_error for d in ctx.diagnostics[before:]):
             continue
         if need is None and demand is None:

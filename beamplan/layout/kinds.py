@@ -9,7 +9,6 @@ To add a kind: write a reader here that returns a new
 from __future__ import annotations
 
 import contextlib
-import math
 from collections.abc import Callable
 from typing import Any
 
@@ -29,6 +28,7 @@ from beamplan.layout.model import (
     SwitchSpec,
 )
 from beamplan.layout.reader import ID_PATTERN, MISSING, MapReader
+from beamplan.layout.spec import SECTIONS, element_keys, quantity
 from beamplan.units import UnitError, parse_quantity
 
 __all__ = ["KINDS", "read_element"]
@@ -52,7 +52,7 @@ def _coating(r: MapReader) -> CoatingSpec | None:
     density = sub.quantity("density", "density", minimum=0.0, strict_minimum=True)
     delta = sub.quantity("delta", "fraction")
     beta = sub.quantity("beta", "fraction", minimum=0.0)
-    sub.finish()
+    sub.finish(table=SECTIONS["coating"])
     if (delta is None) != (beta is None):
         r.ctx.error("missing-key", f"{r.subject}: a measured index needs both 'delta' and "
                     "'beta'", r.value_loc("coating"), "give both, or neither")
@@ -103,7 +103,7 @@ def _interlayers(sub: MapReader, default: InterlayerSpec | None
                             default=base.absorber_on_spacer_m)
     on_absorber = il.quantity("spacer_on_absorber", "length", minimum=0.0,
                               default=base.spacer_on_absorber_m)
-    il.finish()
+    il.finish(table=SECTIONS["interlayers"])
     if on_spacer is None or on_absorber is None or (density is None and il.has("density")):
         return False, None
     return True, InterlayerSpec(material or base.material, density, on_spacer, on_absorber)
@@ -152,7 +152,7 @@ def read_multilayer(r: MapReader, key: str = "multilayer") -> MultilayerSpec | N
     roughness = sub.quantity("roughness", "length", default=rough_default, minimum=0.0)
     is_mosi = (absorber, spacer) == (base.absorber, base.spacer)
     read_ok, interlayers = _interlayers(sub, base.interlayers if is_mosi else None)
-    sub.finish(tuple(RENAMED_MULTILAYER_KEYS))
+    sub.finish(tuple(RENAMED_MULTILAYER_KEYS), SECTIONS["multilayer"])
     if not (ok and read_ok) or None in (period, fraction, periods, cap_m, roughness):
         return None
     assert period is not None and fraction is not None and periods is not None
@@ -165,12 +165,11 @@ def _mirror(r: MapReader, common: Common) -> ElementSpec | None:
     before = len(r.ctx.diagnostics)
     reflectivity = r.fraction("reflectivity")
     coating = _coating(r)
-    grazing = r.quantity("grazing", "angle", minimum=0.0, strict_minimum=True,
-                         maximum=math.pi / 2)
+    grazing = quantity(r, "mirror", "grazing")
     multilayer = read_multilayer(r)
-    incidence = r.quantity("incidence", "angle", minimum=0.0, maximum=math.pi / 2)
-    roughness = r.quantity("roughness", "length", default=0.0, minimum=0.0)
-    plane = r.quantity("plane", "angle", default=0.0)
+    incidence = quantity(r, "mirror", "incidence")
+    roughness = quantity(r, "mirror", "roughness", default=0.0)
+    plane = quantity(r, "mirror", "plane", default=0.0)
     if len(r.ctx.diagnostics) > before and reflectivity is None:
         return None
     if reflectivity is None:
@@ -197,11 +196,10 @@ def _attenuator(r: MapReader, common: Common) -> ElementSpec | None:
 def _drift(r: MapReader, common: Common) -> ElementSpec | None:
     before = len(r.ctx.diagnostics)
     transmission = r.fraction("transmission")
-    length = r.quantity("length", "length", minimum=0.0)
+    length = quantity(r, "drift", "length")
     gas = r.text("gas") or None
-    pressure = r.quantity("pressure", "pressure", minimum=0.0)
-    temperature = r.quantity("temperature", "temperature", default=295.0, minimum=0.0,
-                             strict_minimum=True)
+    pressure = quantity(r, "drift", "pressure")
+    temperature = quantity(r, "drift", "temperature", default=295.0)
     fill = None
     if gas is not None or pressure is not None:
         if gas is None or pressure is None or length is None:
@@ -225,7 +223,7 @@ def _dump(r: MapReader, common: Common) -> ElementSpec | None:
 
 
 def _switch(r: MapReader, common: Common) -> ElementSpec | None:
-    efficiency = r.fraction("efficiency", default=1.0)
+    efficiency = quantity(r, "switch", "efficiency", default=1.0)
     select = r.text("select") or None
     if efficiency is None:
         return None
@@ -260,9 +258,9 @@ def _splitter(r: MapReader, common: Common) -> ElementSpec | None:
             ok = False
             continue
         out = MapReader(r.ctx, settings, {k: (*path, k) for k in settings}, sub, path)
-        efficiency = out.fraction("efficiency", default=1.0)
+        efficiency = quantity(out, "output", "efficiency", default=1.0)
         span = out.fraction_range("fraction", default=(0.0, 1.0))
-        out.finish()
+        out.finish(table=SECTIONS["output"])
         if efficiency is None or span is None:
             ok = False
             continue
@@ -315,8 +313,8 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
     kind = r.text("kind", required=True)
     r.text("part")
     note = r.text("note")
-    heat_limit_w = r.quantity("heat_limit", "power", minimum=0.0)
-    derate = r.fraction("derate", default=1.0)
+    heat_limit_w = quantity(r, "element", "heat_limit")
+    derate = quantity(r, "element", "derate", default=1.0)
     in_service = r.in_use("an element")
     if not kind:
         if not r.ctx.failed:
@@ -333,5 +331,5 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
                       "part": part, "note": note, "location": r.ctx.positions.key(r.where),
                       "derate": 1.0 if derate is None else derate, "in_service": in_service}
     spec = reader(r, common)
-    r.finish()
+    r.finish(table=element_keys(kind))
     return spec

@@ -22,6 +22,7 @@ from beamplan.layout.model import (
     SplitterSpec,
 )
 from beamplan.layout.reader import ID_PATTERN, MISSING, Context, MapReader
+from beamplan.layout.spec import SECTIONS
 from beamplan.layout.yamlpos import Path, YamlDocument, load_yaml
 
 __all__ = ["FORMAT_VERSION", "load_layout", "parse_layout"]
@@ -206,7 +207,7 @@ def parse_layout(doc: YamlDocument) -> Layout:
     top.raw("tolerances")  # read by beamplan.layout.tolerances
     top.raw("economics")  # read by beamplan.layout.economics (cost, availability)
     top.raw("ageing")  # an optional ageing section, read by layout/ageing.py
-    top.finish()
+    top.finish(table=SECTIONS["top"])
     for part in parts:
         if part not in used_parts:
             ctx.warning("unused-part", f"part '{part}' is not used by any element",

@@ -13,6 +13,7 @@ from collections.abc import Mapping
 from typing import Any
 
 from beamplan.errors import Diagnostic, Location, did_you_mean, excerpt
+from beamplan.layout.spec import KeySpec, read_by_spec
 from beamplan.layout.yamlpos import Path, Positions
 from beamplan.units import DIMENSIONS, UnitError, parse_quantity
 
@@ -250,9 +251,17 @@ class MapReader:
         path = self.paths[key]
         return MapReader(self.ctx, value, {k: (*path, k) for k in value}, subject, path)
 
-    def finish(self, hint_keys: tuple[str, ...] = ()) -> None:
-        """Report every key that was not asked for."""
-        known = sorted(self.asked | set(hint_keys))
+    def finish(self, hint_keys: tuple[str, ...] = (),
+               table: tuple[KeySpec, ...] = ()) -> None:
+        """Report every key that was not asked for.
+
+        A key that ``table`` (see :mod:`beamplan.layout.spec`) describes but
+        that no reader code asked for is checked by its description.
+        """
+        for spec in table:
+            if spec.name not in self.asked and spec.name in self.data:
+                read_by_spec(self, spec)
+        known = sorted(self.asked | set(hint_keys) | {spec.name for spec in table})
         for key in self.data:
             if key not in self.asked:
                 hint = did_you_mean(key, known) or f"the keys here are: {', '.join(known)}"
