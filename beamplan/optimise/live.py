@@ -216,8 +216,7 @@ class LiveModel:
             for row in self._rows_of(switch_id, family):
                 for col, value in terms.items():
                     key = (row, col)
-                    self._built.setdefault(key, m.coefficient(row, col))
-                    self._built[key] = value
+                    self._built[key] = value  # the entry while in service
                     if key not in self._off:
                         self.backend.set_coefficient(row, col, value)
         for link in self.network.in_links[switch_id]:
