@@ -10,7 +10,8 @@ behaviours from their documentation (beamplan/network/behaviour.py):
 * SPLIT: shares s_k ≥ 0 with Σ s_k = in, f_min,k × in ≤ s_k ≤ f_max,k × in,
   out_k = eff_k × s_k; absorbed Σ (1 − eff_k) s_k;
 * ABSORB (dump): absorbs all of its input;
-* a switch with ``select`` passes only the selected input (the others carry 0);
+* a switch with ``select`` passes g × its selected input only; power on its other
+  inputs ends on its beam stop (dumped, not absorbed) and binds nothing upstream;
 * a source's output is the power on its link, at most its available power;
 * a scanner's input is at most its ``max_power``, and a scanner given by dose
   and wph at most its useful ceiling (unless ``cap_at_useful: false``): the IF
@@ -148,12 +149,13 @@ class ReferenceLp:
             return
         if b in (Behaviour.GAIN, Behaviour.COMBINE):
             g = node.gain_max
-            self.eq.append((self._add({self._out(node.id): 1.0}, self._in(node.id, -g)), 0.0))
-            absorbed = self._in(node.id, 1.0 - g)
-            if b is Behaviour.COMBINE and node.select is not None:
-                for lk in self.net.in_links[node.id]:
-                    if lk.tail != node.select:
-                        self.bounds[self.link[lk.index]] = (0.0, 0.0)
+            passed = self._in(node.id)
+            if b is Behaviour.COMBINE and node.select is not None:  # the others: beam stop
+                passed = {self.link[lk.index]: 1.0 for lk in self.net.in_links[node.id]
+                          if lk.tail == node.select}
+            self.eq.append((self._add({self._out(node.id): 1.0},
+                                      {c: -g * v for c, v in passed.items()}), 0.0))
+            absorbed = {c: (1.0 - g) * v for c, v in passed.items()}
         elif b is Behaviour.RANGE:
             out = self._out(node.id)
             self.ub.append((self._add(self._in(node.id, node.gain_min), {out: -1.0}), 0.0))

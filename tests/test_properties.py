@@ -1,7 +1,8 @@
 """Properties of beamplan's plans on random layouts (hypothesis).
 
 * Power conservation: the sources' output equals delivered + absorbed + dumped
-  (1e-9 relative), each element's incident power equals absorbed + output, and
+  (1e-9 relative), each element's incident power equals absorbed + dumped +
+  output (dumped: what a switch's deselected inputs bring to its beam stop), and
   every node's incident power equals what its links bring, re-computed here from
   the reported outputs and splitter settings; every limit holds.
 * Monotonicity of the best common headroom factor t (the lowest delivered ÷
@@ -75,7 +76,8 @@ def check_conservation(net: Network, plan: Plan) -> None:
     total = sum(s.output_w for s in plan.sources)
     scale = max(total, 1.0)
     delivered = sum(s.delivered_w for s in plan.scanners)
-    dumped = sum(e.absorbed_w for e in plan.elements if e.kind == "dump")
+    dumped = sum(e.absorbed_w for e in plan.elements if e.kind == "dump") + \
+        sum(e.dumped_w for e in plan.elements)  # a switch's deselected inputs
     absorbed = sum(e.absorbed_w for e in plan.elements if e.kind != "dump")
     assert total == pytest.approx(delivered + absorbed + dumped, rel=0,
                                   abs=CONSERVATION_RTOL * scale)
@@ -85,8 +87,19 @@ def check_conservation(net: Network, plan: Plan) -> None:
         absorbed + dumped, rel=0, abs=CONSERVATION_RTOL * scale)
     for e in plan.elements:
         output = 0.0 if e.kind == "dump" else e.output_w
-        assert e.incident_w == pytest.approx(e.absorbed_w + output, rel=0,
+        assert e.incident_w == pytest.approx(e.absorbed_w + e.dumped_w + output, rel=0,
                                              abs=CONSERVATION_RTOL * scale), e.id
+        node = net.node[e.id]
+        if node.behaviour is Behaviour.COMBINE and node.select is not None:
+            # A switch passes g × its selected input; the rest ends on its beam stop.
+            chosen = sum(sent(net, plan, lk.tail, lk.port) for lk in net.in_links[e.id]
+                         if lk.tail == node.select)
+            assert e.dumped_w == pytest.approx(e.incident_w - chosen, rel=0,
+                                               abs=CONSERVATION_RTOL * scale), e.id
+            assert e.output_w == pytest.approx(node.gain_max * chosen, rel=0,
+                                               abs=CONSERVATION_RTOL * scale), e.id
+        else:
+            assert e.dumped_w == 0.0, e.id
     incident = {s.id: s.delivered_w for s in plan.scanners}
     incident.update({e.id: e.incident_w for e in plan.elements})
     for node_id, got in incident.items():

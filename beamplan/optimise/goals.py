@@ -31,6 +31,8 @@ __all__ = ["GOALS", "GoalOutcome", "run_goal"]
 GOALS = _GOALS  # the goals a user may choose (beamplan.vocabulary)
 DUAL_TOL = 1e-9
 TIER_WEIGHT = 1000.0
+SCREEN_SOURCE_COST = 1e-7  # per W drawn, in the screen goal's last LP: far below any path's gain
+# per W delivered, so only power that reaches no scanner is turned down (common practice)
 
 
 @dataclass(frozen=True)
@@ -253,6 +255,8 @@ def _screen(d: _Driver) -> GoalOutcome:
         for link in d.m.network.in_links[sid]:
             col = d.m.link_col[link.index]
             costs[col] = costs.get(col, 0.0) - d.m.link_coef[link.index]
+    for col in d.m.source_col.values():  # draw nothing that is only dumped (a standby
+        costs[col] = costs.get(col, 0.0) + SCREEN_SOURCE_COST  # source behind a switch)
     d.objective(costs)
     final = d.solve()
     first = d.first or final

@@ -5,8 +5,9 @@ An outage is applied by changing coefficients and right-hand sides so that
 the LP is exactly the one :func:`beamplan.network.behaviour.out_of_service`
 would give if the network were rebuilt; a test checks that the two agree.
 A switch position is applied the way the LP builder writes ``select``: the
-columns of the links from the inputs it does not select get an upper bound
-of 0 (:meth:`LiveModel.switched`), again checked against a rebuilt layout.
+selected input's entry in the switch's balance (and heat) row gets its
+coefficient, the other inputs' entries 0, so their power is dumped at the
+switch (:meth:`LiveModel.switched`), again checked against a rebuilt layout.
 """
 
 from __future__ import annotations
@@ -19,7 +20,7 @@ from beamplan.network.behaviour import Behaviour, Node, out_of_service
 from beamplan.network.graph import Link, Network
 from beamplan.optimise.backend import INF, Backend, make_backend
 from beamplan.optimise.goals import run_goal
-from beamplan.optimise.lp import LpModel, build_lp
+from beamplan.optimise.lp import LpModel, build_lp, switch_terms
 from beamplan.optimise.planner import solve_model
 from beamplan.optimise.result import Plan
 from beamplan.vocabulary import Family, Goal, Solver
@@ -59,7 +60,8 @@ class LiveModel:
         self._succ: dict[str, list[str]] = {}
         for link in network.links:
             self._succ.setdefault(link.tail, []).append(link.head)
-        self._built: dict[tuple[int, int], float] = {}
+        self._built: dict[tuple[int, int], float] = {}  # entries as they are in service
+        self._off: set[tuple[int, int]] = set()  # entries an outage holds at zero
         self._dead: set[int] = set()  # links after a failed GAIN element carry nothing
         self._dominated: dict[str, tuple[str, ...]] | None = None
         self._base_cut: set[str] = set()
@@ -100,7 +102,7 @@ class LiveModel:
         used = float(sum(cols[c] for c in self.model.source_col.values()))
         return CaseSummary(delivered, used)
 
-    def _rows_of(self, node_id: str, family: str) -> list[int]:
+    def _rows_of(self, node_id: str, family: Family) -> list[int]:
         return [r for r in self._rows.get(node_id, []) if self.model.row_info[r].family == family]
 
     def _in_cols(self, node_id: str) -> list[int]:
@@ -130,7 +132,7 @@ class LiveModel:
                 for row in self._rows.get(link.head, []):
                     self._coefficient(row, col, on)
         elif b_ is Behaviour.COMBINE:
-            for row in self._rows_of(node.id, "balance"):
+            for row in self._rows_of(node.id, Family.BALANCE):
                 for col in self._in_cols(node.id):
                     self._coefficient(row, col, on)
         elif b_ is Behaviour.RANGE:
@@ -158,6 +160,10 @@ class LiveModel:
         key = (row, col)
         if key not in self._built:
             self._built[key] = self.model.coefficient(row, col)
+        if on:
+            self._off.discard(key)
+        else:
+            self._off.add(key)
         self.backend.set_coefficient(row, col, self._built[key] if on else 0.0)
 
     def _cut_off(self, failed: set[str]) -> set[str]:
@@ -198,11 +204,24 @@ class LiveModel:
                 stack.append(head)
         return {s.id for s in net.scanners if s.id not in seen}
 
-    def _select_bounds(self, switch_id: str, selected: str) -> None:
-        """Open the link from the selected input, close the others (upper bound 0)."""
+    def _select(self, switch_id: str, selected: str) -> None:
+        """Move a switch: its input entries in its balance and heat rows (see switch_terms).
+
+        The selected input's entry is −gain × link coefficient in the balance
+        row, the others' 0 (their power is dumped at the switch). An entry an
+        outage holds at zero stays zero until the outage ends.
+        """
+        m = self.model
+        balance, heat = switch_terms(m, self.network.node[switch_id], selected)
+        for family, terms in ((Family.BALANCE, balance), (Family.HEAT, heat)):
+            for row in self._rows_of(switch_id, family):
+                for col, value in terms.items():
+                    key = (row, col)
+                    self._built[key] = value  # the entry while in service
+                    if key not in self._off:
+                        self.backend.set_coefficient(row, col, value)
         for link in self.network.in_links[switch_id]:
-            high = INF if link.tail == selected else 0.0
-            self.backend.set_bounds(self.model.link_col[link.index], 0.0, high)
+            m.switch_coef[(switch_id, link.index)] = balance[m.link_col[link.index]]
 
     @contextlib.contextmanager
     def switched(self, positions: Mapping[str, str]) -> Iterator[Network]:
@@ -229,14 +248,14 @@ class LiveModel:
         changed = {sid: replace(before_network.node[sid], select=sel)
                    for sid, sel in positions.items()}
         for switch_id, selected in positions.items():
-            self._select_bounds(switch_id, selected)
+            self._select(switch_id, selected)
         self.model.network = before_network.with_nodes(changed)
         self.model.unreachable = self._search(self._failed, positions)
         try:
             yield self.model.network
         finally:
             for switch_id in positions:
-                self._select_bounds(switch_id, str(self.network.node[switch_id].select))
+                self._select(switch_id, str(self.network.node[switch_id].select))
             self.model.network, self.model.unreachable = before_network, before_cut
 
     def _with_nodes(self, changed: dict[str, Node]) -> Network:

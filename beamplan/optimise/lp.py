@@ -29,7 +29,7 @@ from beamplan.network.behaviour import Behaviour, Node
 from beamplan.network.graph import Network
 from beamplan.vocabulary import Family
 
-__all__ = ["Coefs", "LpModel", "Row", "build_lp", "gc_paused"]
+__all__ = ["Coefs", "LpModel", "Row", "build_lp", "gc_paused", "switch_terms"]
 
 INF = float("inf")
 Coefs = dict[int, float]  # a linear expression: column -> coefficient
@@ -87,6 +87,8 @@ class LpModel:
     heat_row: dict[str, int] = field(default_factory=dict)
     available_row: dict[str, int] = field(default_factory=dict)
     max_row: dict[str, int] = field(default_factory=dict)
+    # (switch, input link) -> the input column's coefficient in the switch's balance row
+    switch_coef: dict[tuple[str, int], float] = field(default_factory=dict)
     out_of_service: set[str] = field(default_factory=set)  # outages applied in place
     unreachable: set[str] = field(default_factory=set)  # scanners no power can reach
     _pulp: Any = field(default=None, repr=False)  # (problem, variables, constraints)
@@ -316,15 +318,44 @@ def _element_rows(m: LpModel, i: int, node: Node) -> Coefs:
     if node.behaviour is Behaviour.SPLIT:
         return _splitter_rows(m, tag, node, inflow)
     if node.behaviour is Behaviour.COMBINE:
-        out = _out(m, node, None)
-        m.add_row(_plus((1.0, out), (-node.gain_max, inflow)),
+        balance, heat = switch_terms(m, node)
+        for link in m.network.in_links[node.id]:
+            m.switch_coef[(node.id, link.index)] = balance[m.link_col[link.index]]
+        m.add_row(_plus((1.0, _out(m, node, None)), (1.0, balance)),
                   Row(f"bal{tag}", Family.BALANCE, node.id), 0.0, 0.0)
-        if node.select is not None:
-            for link in m.network.in_links[node.id]:
-                if link.tail != node.select:
-                    m.col_high[m.link_col[link.index]] = 0.0
-        return _plus((1.0 - node.gain_max, inflow))
+        return heat
     return inflow  # ABSORB: a dump takes everything
+
+
+def switch_terms(m: LpModel, node: Node, select: str | None = None) -> tuple[Coefs, Coefs]:
+    """A switch's input terms: in its balance row, and in its absorbed (heat) power.
+
+    The switch passes gain × the power on the input it selects (``select``,
+    default the node's own; every input when it has none). Power arriving on
+    an input it does not select ends on the switch's beam stop: it is dumped,
+    so it is neither in the balance nor in the heat, and the flows upstream
+    are not bound by the switch. Every input column has an entry (0 when
+    deselected), so a live model can move the switch by setting them.
+
+    Examples
+    --------
+    >>> from beamplan.layout.loader import load_layout
+    >>> from beamplan.network.graph import build_network
+    >>> model = build_lp(build_network(load_layout("layouts/two-bay.yaml")))
+    >>> node = model.network.node["sw-source"]
+    >>> balance, heat = switch_terms(model, node, "sb-drift")
+    >>> sorted(v != 0.0 for v in balance.values())
+    [False, True]
+    """
+    chosen = node.select if select is None else select
+    balance: Coefs = {}
+    heat: Coefs = {}
+    for link in m.network.in_links[node.id]:
+        col, coef = m.link_col[link.index], m.link_coef[link.index]
+        live = 1.0 if chosen is None or link.tail == chosen else 0.0
+        balance[col] = balance.get(col, 0.0) - live * node.gain_max * coef
+        heat[col] = heat.get(col, 0.0) + live * (1.0 - node.gain_max) * coef
+    return balance, heat
 
 
 def _splitter_rows(m: LpModel, tag: str, node: Node, inflow: Coefs) -> Coefs:

@@ -104,8 +104,8 @@ def over_delivery_reasons(model: LpModel, outcome: GoalOutcome, flows: Flows,
     --------
     >>> import beamplan
     >>> plan = beamplan.plan("layouts/two-bay.yaml", goal="min-source")
-    >>> [s.id for s in plan.scanners if s.over_delivery_reason][:1]
-    ['litho-a5']
+    >>> sorted({s.id[:7] for s in plan.scanners if s.over_delivery_reason})  # bay A only
+    ['litho-a']
     """
     network = model.network
     out: dict[str, str] = {}

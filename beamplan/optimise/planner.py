@@ -76,14 +76,15 @@ def _elements(network: Network, flows: Flows) -> tuple[ElementResult, ...]:
     for node in network.elements:
         incident = flows.incident_w[node.id]
         absorbed = flows.absorbed_w[node.id]
-        output = incident - absorbed if node.behaviour is not Behaviour.ABSORB else 0.0
+        dumped = flows.dumped_w.get(node.id, 0.0)
+        output = incident - absorbed - dumped if node.behaviour is not Behaviour.ABSORB else 0.0
         margin = None if node.heat_limit_w is None else node.heat_limit_w - absorbed
         gain = output / incident if incident > 0 else (
             node.gain_max if node.behaviour is not Behaviour.SPLIT else
             sum(p.efficiency * p.fraction_max for p in node.ports[:1]))
         out.append(ElementResult(node.id, node.kind, incident, absorbed, output,
                                  node.heat_limit_w, margin, flows.settings.get(node.id),
-                                 gain, node.provenance))
+                                 gain, node.provenance, dumped))
     return tuple(out)
 
 
@@ -101,6 +102,7 @@ def _losses(network: Network, flows: Flows, source_total: float) -> Losses:
         elif not node.is_source:
             absorbed += flows.absorbed_w[node.id]
             by_kind[node.kind] += flows.absorbed_w[node.id]
+        dumped += flows.dumped_w.get(node.id, 0.0)  # a switch's deselected inputs
     residual = source_total - delivered - absorbed - dumped
     return Losses(source_total, delivered, absorbed, dumped,
                   tuple(sorted(by_kind.items(), key=lambda kv: -kv[1])), residual)

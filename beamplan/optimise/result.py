@@ -94,6 +94,7 @@ class ElementResult:
     setting: float | tuple[tuple[str, float], ...] | None
     gain: float
     provenance: str = ""
+    dumped_w: float = 0.0  # a switch's deselected inputs, stopped on its beam stop
 
 
 @dataclass(frozen=True)
@@ -229,6 +230,7 @@ class Flows:
     incident_w: dict[str, float]
     absorbed_w: dict[str, float]
     settings: dict[str, float | tuple[tuple[str, float], ...] | None]
+    dumped_w: dict[str, float] = field(default_factory=dict)  # stopped at a switch's beam stop
 
 
 def _idle_fractions(ports: tuple[Port, ...]) -> list[float]:
@@ -265,12 +267,15 @@ def propagate(network: Network, source_w: dict[str, float],
 
     Settings are read from the LP solution as ratios (output ÷ input for an
     attenuator, share ÷ input for a splitter output) and re-applied in
-    topological order, so each element's balance holds to round-off.
+    topological order, so each element's balance holds to round-off. A switch
+    passes gain × its selected input; what arrives on its other inputs is
+    dumped there (``Flows.dumped_w``), not absorbed.
     """
     link = [0.0] * len(network.links)
     incident: dict[str, float] = {}
     absorbed: dict[str, float] = {}
     settings: dict[str, float | tuple[tuple[str, float], ...] | None] = {}
+    dumped: dict[str, float] = {}
     in_links = network.in_links
     for node in network.nodes:
         into = in_links[node.id]
@@ -286,6 +291,10 @@ def propagate(network: Network, source_w: dict[str, float],
             absorbed[node.id] = 0.0 if out is not None else inflow
         elif b in (Behaviour.GAIN, Behaviour.COMBINE, Behaviour.RANGE):
             gain = node.gain_max
+            if b is Behaviour.COMBINE and node.select is not None:
+                stopped = sum(link[lk.index] for lk in into if lk.tail != node.select)
+                dumped[node.id] = stopped
+                inflow -= stopped  # a deselected input ends on the switch's beam stop
             if b is Behaviour.RANGE:
                 lp_in = sum(lp_link_w[lk.index] for lk in into)
                 lp_out = lp_link_w[network.out_link[(node.id, None)].index]
@@ -309,7 +318,7 @@ def propagate(network: Network, source_w: dict[str, float],
             absorbed[node.id] = lost
         else:  # ABSORB and SINK keep what they get
             absorbed[node.id] = inflow
-    return Flows(tuple(link), incident, absorbed, settings)
+    return Flows(tuple(link), incident, absorbed, settings, dumped)
 
 
 def verify(plan: Plan, network: Network) -> None:
@@ -331,9 +340,10 @@ def verify(plan: Plan, network: Network) -> None:
         if s.output_w > s.available_w * (1 + LIMIT_RTOL) + LIMIT_RTOL:
             problems.append(f"source {s.id} draws {s.output_w} W of {s.available_w} W")
     for e in plan.elements:
-        if abs(e.incident_w - e.absorbed_w - e.output_w) > CONSERVATION_RTOL * scale:
+        if abs(e.incident_w - e.absorbed_w - e.dumped_w - e.output_w) > \
+                CONSERVATION_RTOL * scale:
             problems.append(f"element {e.id} balance: {e.incident_w} != {e.absorbed_w} + "
-                            f"{e.output_w}")
+                            f"{e.dumped_w} + {e.output_w}")
         if e.heat_limit_w is not None and \
                 e.absorbed_w > e.heat_limit_w * (1 + LIMIT_RTOL) + LIMIT_RTOL:
             problems.append(f"element {e.id} absorbs {e.absorbed_w} W over {e.heat_limit_w} W")

@@ -281,12 +281,12 @@ def _element(m: SizingLp, node: Node) -> dict[int, float]:
     inflow = m.inflow(node.id)
     b = node.behaviour
     if b in (Behaviour.GAIN, Behaviour.COMBINE):
-        m.add_row(_plus({m.out(node.id): 1.0}, m.inflow(node.id, -node.gain_max)), 0.0, 0.0)
-        if b is Behaviour.COMBINE and node.select is not None:
-            for lk in m.network.in_links[node.id]:
-                if lk.tail != node.select:
-                    m.col_high[m.link_col[lk.index]] = 0.0
-        return m.inflow(node.id, 1.0 - node.gain_max)
+        # A switch passes its selected input only; the others end on its beam stop
+        # (dumped, neither passed nor absorbed), without binding the flows upstream.
+        live = [m.link_col[lk.index] for lk in m.network.in_links[node.id]
+                if b is Behaviour.GAIN or node.select in (None, lk.tail)]
+        m.add_row(_plus({m.out(node.id): 1.0}, {c: -node.gain_max for c in live}), 0.0, 0.0)
+        return {c: 1.0 - node.gain_max for c in live}
     if b is Behaviour.RANGE:
         out = m.out(node.id)
         m.add_row(_plus({out: 1.0}, m.inflow(node.id, -1.0)), -INF, 0.0)  # T ≤ 1 always
