@@ -141,7 +141,7 @@ class LiveModel:
                     for col in self._in_cols(node.id):
                         self._coefficient(row, col, on)
         elif b_ is Behaviour.SPLIT:
-            for row in self._rows_of(node.id, "share-out"):
+            for row in self._rows_of(node.id, Family.SHARE_OUT):
                 self._coefficient(row, m.share_col[(node.id, m.row_info[row].port)], on)
 
     def _after(self, node_id: str) -> list[Link]:
