@@ -104,7 +104,7 @@ class ReferenceLp:
         self.net = net
         # a scanner out of service (offline: true) has no need and no max_power
         self.scanners = [n for n in net.nodes if n.behaviour is Behaviour.SINK
-                         and getattr(n, "in_service", True)]
+                         and getattr(n, "in_use", True)]
         self.link = {lk.index: i for i, lk in enumerate(net.links)}
         ncol = len(net.links)
         self.share: dict[tuple[str, str | None], int] = {}

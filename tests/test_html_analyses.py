@@ -151,9 +151,9 @@ def test_sweep_page_ranks_every_outage(name: str) -> None:
     network, report = sweep(name)
     html = page("sweep", name)
     text = text_of(html)
-    in_service = [n.id for n in network.nodes if n.in_service]
+    in_use = [n.id for n in network.nodes if n.in_use]
     # one case per node in service (outage_cases); 11 for the pilot line (tests/test_cases.py)
-    assert report.total_cases == report.finished == len(in_service)
+    assert report.total_cases == report.finished == len(in_use)
     assert name != PILOT or report.finished == 11
     rows = html[html.index('<section id="outages">'):html.index('<section id="chart">')]
     labels = re.findall(r"<tr><td class=\"num\">\d+</td><td>([^<]+)</td>", rows)

@@ -20,9 +20,9 @@ DEMOS = ["pilot-line", "two-bay", "coated-line", "overbooked"]
 
 
 def _out_of_service(layout, node_id):  # type: ignore[no-untyped-def]
-    """The layout rebuilt with one node's in_service set to false (the slow way)."""
+    """The layout rebuilt with one node's in_use set to false (the slow way)."""
     def off(group):  # type: ignore[no-untyped-def]
-        return tuple(replace(x, in_service=False) if x.id == node_id else x for x in group)
+        return tuple(replace(x, in_use=False) if x.id == node_id else x for x in group)
     return replace(layout, sources=off(layout.sources), elements=off(layout.elements),
                    scanners=off(layout.scanners))
 

@@ -243,7 +243,7 @@ class ReferenceSizing:
 
     def __init__(self, net: Network) -> None:
         self.net = net
-        reach_src = [n.id for n in net.nodes if n.behaviour is Behaviour.SOURCE and n.in_service]
+        reach_src = [n.id for n in net.nodes if n.behaviour is Behaviour.SOURCE and n.in_use]
         self.power = sum(net.node[s].available_w for s in reach_src)
         self.ncol = 0
         self.link = {lk.index: self._col() for lk in net.links}
@@ -281,7 +281,7 @@ class ReferenceSizing:
             link = self.net.out_link.get((nid, None))
             if link is None:
                 return
-            if not node.in_service:
+            if not node.in_use:
                 self.bounds[self.link[link.index]] = (0.0, 0.0)
                 return
             self.source_relax.append(self._relax({self.link[link.index]: 1.0},
@@ -320,7 +320,7 @@ class ReferenceSizing:
         elif b is Behaviour.ABSORB:
             absorbed = self._in(nid)
         elif b is Behaviour.SINK:
-            if not node.in_service:
+            if not node.in_use:
                 return
             if node.max_w is not None:
                 self._relax(self._in(nid), node.max_w, 1.0 / max(node.max_w, 1.0))

@@ -33,7 +33,7 @@ SLACK_W = 1e-6  # absolute, W: the solver's give on a scanner held at 0 W
 
 def _outage(layout: Layout, node_id: str) -> Layout:
     def off(group):  # type: ignore[no-untyped-def]
-        return tuple(replace(x, in_service=False) if x.id == node_id else x for x in group)
+        return tuple(replace(x, in_use=False) if x.id == node_id else x for x in group)
     return replace(layout, sources=off(layout.sources), elements=off(layout.elements),
                    scanners=off(layout.scanners))
 

@@ -57,7 +57,7 @@ def _switched_layout():  # type: ignore[no-untyped-def]
     layout = layout_from_text(LAYOUT)
     return replace(layout, elements=tuple(
         replace(e, select="src-b") if e.id == "sw1" else
-        replace(e, in_service=False) if e.id == "m04" else e for e in layout.elements))
+        replace(e, in_use=False) if e.id == "m04" else e for e in layout.elements))
 
 
 def test_a_plan_feeds_the_other_output_of_a_splitter_behind_a_deselected_input() -> None:
@@ -77,7 +77,7 @@ def test_deselected_power_is_dumped_at_the_switch() -> None:
     # m04 in service but deselected: its output (1000 × 0.125 × 0.95 × 0.5 =
     # 59.375 W, hand calculation) ends on sw1's beam stop, counted as dumped.
     layout = _switched_layout()
-    layout = replace(layout, elements=tuple(replace(e, in_service=True) if e.id == "m04"
+    layout = replace(layout, elements=tuple(replace(e, in_use=True) if e.id == "m04"
                                             else e for e in layout.elements))
     plan = beamplan.plan(build_network(layout))
     sw1 = plan.element("sw1")
@@ -155,7 +155,7 @@ def test_moving_a_lossy_heat_limited_switch_in_place_equals_a_rebuilt_layout(
         slow_layout = replace(layout, elements=tuple(
             replace(e, select=choice) if e.id == "sw1" else e for e in layout.elements))
         slow_layout = replace(slow_layout, **{group: tuple(
-            replace(x, in_service=False) if x.id in failed else x
+            replace(x, in_use=False) if x.id in failed else x
             for x in getattr(slow_layout, group)) for group in ("sources", "elements")})
         slow = beamplan.plan(build_network(slow_layout))
         assert fast.headroom_factor == pytest.approx(slow.headroom_factor, rel=1e-6, abs=1e-9)

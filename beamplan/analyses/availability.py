@@ -133,7 +133,7 @@ def components_of(layout: Layout, network: Network, econ: Economics) -> tuple[Co
     """
     part_of = {e.id: e.part for e in layout.elements}
     return tuple(Component(n.id, n.kind, r.mtbf_h, r.mttr_h)
-                 for n in network.nodes if n.in_service
+                 for n in network.nodes if n.in_use
                  for r in (econ.reliability(n.id, n.kind, part_of.get(n.id)),))
 
 

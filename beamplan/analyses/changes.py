@@ -111,11 +111,11 @@ def _fail(layout: Layout, change: Change) -> Layout:
             raise _missing(change, layout, item_id, "source, element or scanner")
     return replace(
         layout,
-        sources=tuple(replace(s, in_service=False) if s.id in chosen else s
+        sources=tuple(replace(s, in_use=False) if s.id in chosen else s
                       for s in layout.sources),
-        elements=tuple(replace(e, in_service=False) if e.id in chosen else e
+        elements=tuple(replace(e, in_use=False) if e.id in chosen else e
                        for e in layout.elements),
-        scanners=tuple(replace(s, in_service=False) if s.id in chosen else s
+        scanners=tuple(replace(s, in_use=False) if s.id in chosen else s
                        for s in layout.scanners))
 
 

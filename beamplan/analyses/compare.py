@@ -118,7 +118,7 @@ def _switched_network(network: Network, goal: str, solver: str
     """The case with its switches where they restore the most service (fewest moves)."""
     switches = {n.id: tuple(link.tail for link in network.in_links[n.id])
                 for n in network.elements
-                if n.behaviour is Behaviour.COMBINE and n.select is not None and n.in_service}
+                if n.behaviour is Behaviour.COMBINE and n.select is not None and n.in_use}
     if not switches:
         return network, ()
     current = {sid: str(network.node[sid].select) for sid in switches}
@@ -181,7 +181,7 @@ def compare_cases(base: Layout, cases: dict[str, Case], *, goal: Goal | str = Go
         else:
             plan = plan_network(network, goal, solver)
         newly = tuple(b.description for b in plan.binding if b.description not in base_binding)
-        failed = {n.id for n in network.nodes if not n.in_service}
+        failed = {n.id for n in network.nodes if not n.in_use}
         outcomes.append(CaseOutcome(name, cases[name].note, plan, newly,
                                     settings_moves(base_plan, plan, failed), best,
                                     switch_moves))

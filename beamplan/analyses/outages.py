@@ -182,7 +182,7 @@ def outage_cases(network: Network, *, kinds: Sequence[str] = (), ids: Sequence[s
         if kind not in kinds_known:
             raise ValueError(f"no node of kind '{kind}' in this layout; its kinds are: "
                              f"{', '.join(sorted(kinds_known))}")
-    chosen = [n.id for n in network.nodes if n.in_service and
+    chosen = [n.id for n in network.nodes if n.in_use and
               (not kinds or n.kind in kinds) and (not ids or n.id in ids)]
     if not pairs:
         return [(c,) for c in chosen]

@@ -105,7 +105,7 @@ def what_it_takes(network: Network, plan: Plan, solver: Solver | str = Solver.AU
     """
     sizing = size_network(network, plan)
     served = tuple(s.id for s in network.scanners
-                   if s.in_service and s.need_w > 0 and s.id not in sizing.unreachable)
+                   if s.in_use and s.need_w > 0 and s.id not in sizing.unreachable)
 
     def checked(answer: Answer) -> Answer:
         return replace(answer, checked=_check(network, (answer,), served, solver))

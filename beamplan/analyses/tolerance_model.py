@@ -203,7 +203,7 @@ class _Resolver:
         prop, net = t.property, self.network
         sid = getattr(spec, "id", "")
         node = net.node.get(sid)
-        if node is None or not node.in_service:
+        if node is None or not node.in_use:
             return []
         what = f"{type(spec).__name__.removesuffix('Spec').lower()} '{sid}'"
         if isinstance(spec, SourceSpec) and prop == "power":

@@ -71,7 +71,7 @@ class RetuneModel:
         self.column = {k: model.knob_column[i] for i, k in enumerate(model.knobs)}
         self.ncols = len(model.columns)
         self.entries = self._entries()
-        self.scanners = [s for s in network.scanners if s.in_service]
+        self.scanners = [s for s in network.scanners if s.in_use]
         self.need_w = np.array([s.need_w for s in self.scanners])
         self.need_col = np.array([self.column.get(Knob(s.id, "need"), -1)
                                   for s in self.scanners], dtype=int)

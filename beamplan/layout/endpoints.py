@@ -135,11 +135,11 @@ def read_sources(ctx: Context, section: dict[str, Any]) -> list[SourceSpec]:
         angle = quantity(r, "source", "polarisation_angle", default=0.0)
         undulator = _undulator(r)
         note = r.text("note")
-        in_service = r.in_use("a source")
+        in_use = r.in_use("a source")
         r.finish(table=SECTIONS["source"])
         if power is not None and wall is not None and surplus in SURPLUS_MODES:
             out.append(SourceSpec(sid, power, wall[0], note, ctx.positions.key(path),
-                                  degree or 0.0, angle or 0.0, undulator, in_service,
+                                  degree or 0.0, angle or 0.0, undulator, in_use,
                                   wall[1], surplus))
     return out
 
@@ -236,7 +236,7 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
         max_w = quantity(r, "scanner", "max_power")
         priority = r.integer("priority", default=1, minimum=1, maximum=1000)
         note = r.text("note")
-        in_service = r.in_use("a scanner")
+        in_use = r.in_use("a scanner")
         cap_at_useful = r.flag("cap_at_useful", default=True)
         r.finish(table=SECTIONS["scanner"])
         if len(ctx.diagnostics) > before and any(d.is_error for d in ctx.diagnostics[before:]):
@@ -251,5 +251,5 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
                         f"scanner '{sid}': max_power {max_w:g} W is below its need {need:g} W",
                         r.value_loc("max_power"), "it can never be fully served")
         out.append(ScannerSpec(sid, need, max_w, priority, note, ctx.positions.key(path),
-                               demand, in_service, cap_at_useful))
+                               demand, in_use, cap_at_useful))
     return out, used

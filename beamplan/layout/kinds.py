@@ -315,7 +315,7 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
     note = r.text("note")
     heat_limit_w = quantity(r, "element", "heat_limit")
     derate = quantity(r, "element", "derate", default=1.0)
-    in_service = r.in_use("an element")
+    in_use = r.in_use("an element")
     if not kind:
         if not r.ctx.failed:
             r.ctx.error("missing-key", f"{r.subject}: 'kind' is empty", r.value_loc("kind"),
@@ -329,7 +329,7 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
         return None
     common: Common = {"id": element_id, "kind": kind, "heat_limit_w": heat_limit_w,
                       "part": part, "note": note, "location": r.ctx.positions.key(r.where),
-                      "derate": 1.0 if derate is None else derate, "in_service": in_service}
+                      "derate": 1.0 if derate is None else derate, "in_use": in_use}
     spec = reader(r, common)
     r.finish(table=element_keys(kind))
     return spec

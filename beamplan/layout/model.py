@@ -70,7 +70,7 @@ class SourceSpec:
     polarisation_degree: float = 0.0
     polarisation_angle_rad: float = 0.0
     undulator: UndulatorSpec | None = None
-    in_service: bool = True
+    in_use: bool = True
     electrical_fixed_w: float = 0.0
     surplus: str = "turn-down"
 
@@ -92,7 +92,7 @@ class ElementSpec:
         The most power the element may absorb, or ``None`` for no limit.
     derate
         A factor on its gain (ageing, contamination, a what-if), default 1.
-    in_service
+    in_use
         ``False`` for an outage: no power passes it.
     part
         The part (template) it was made from, if any.
@@ -105,7 +105,7 @@ class ElementSpec:
     note: str = ""
     location: Location = _NOWHERE
     derate: float = 1.0
-    in_service: bool = True
+    in_use: bool = True
 
     @property
     def single_input(self) -> bool:
@@ -300,7 +300,7 @@ class ScannerSpec:
     note: str = ""
     location: Location = _NOWHERE
     demand: DemandSpec | None = None
-    in_service: bool = True
+    in_use: bool = True
     cap_at_useful: bool = True
 
 

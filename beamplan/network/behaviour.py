@@ -98,7 +98,7 @@ class Node:
     provenance: str = ""
     location: Location = _NOWHERE
     demand: Any = None  # beamplan.network.derive.ScannerDemand for scanners with a model
-    in_service: bool = True
+    in_use: bool = True
     select_location: Location | None = field(default=None, compare=False)
     electrical_fixed_w: float = 0.0
     surplus: str = "turn-down"
@@ -209,7 +209,7 @@ def element_node(spec: ElementSpec, optics: Optics | None = None) -> Node:
                 location=spec.location, **fields)  # type: ignore[arg-type]
     if spec.derate != 1.0:
         node = derated(node, spec.derate)
-    return node if spec.in_service else out_of_service(node)
+    return node if spec.in_use else out_of_service(node)
 
 
 def derated(node: Node, factor: float) -> Node:
@@ -241,16 +241,16 @@ def out_of_service(node: Node) -> Node:
     Examples
     --------
     >>> node = out_of_service(Node("m1", "mirror", Behaviour.GAIN, 0.9, 0.9, heat_limit_w=5.0))
-    >>> node.gain_max, node.heat_limit_w, node.in_service
+    >>> node.gain_max, node.heat_limit_w, node.in_use
     (0.0, None, False)
     """
     if node.is_source:
-        return replace(node, available_w=0.0, in_service=False)
+        return replace(node, available_w=0.0, in_use=False)
     if node.is_scanner:
-        return replace(node, in_service=False)
+        return replace(node, in_use=False)
     ports = tuple(replace(p, efficiency=0.0) for p in node.ports)
     return replace(node, gain_min=0.0, gain_max=0.0, ports=ports, heat_limit_w=None,
-                   in_service=False)
+                   in_use=False)
 
 
 def source_node(spec: SourceSpec, wavelength_m: float = 13.5e-9) -> Node:
@@ -265,7 +265,7 @@ def source_node(spec: SourceSpec, wavelength_m: float = 13.5e-9) -> Node:
                 available_w=spec.power_w, electrical_w=spec.electrical_w,
                 electrical_fixed_w=spec.electrical_fixed_w, surplus=spec.surplus,
                 provenance=source_check(spec, wavelength_m), location=spec.location)
-    return node if spec.in_service else out_of_service(node)
+    return node if spec.in_use else out_of_service(node)
 
 
 def scanner_node(spec: ScannerSpec, wavelength_m: float = 13.5e-9) -> Node:
@@ -303,4 +303,4 @@ def scanner_node(spec: ScannerSpec, wavelength_m: float = 13.5e-9) -> Node:
                 need_w=need, max_w=bound, priority=spec.priority,
                 provenance=how, location=spec.location, demand=demand,
                 ceiling_w=ceiling, max_given_w=spec.max_w, cap_at_useful=spec.cap_at_useful)
-    return node if spec.in_service else out_of_service(node)
+    return node if spec.in_use else out_of_service(node)

@@ -29,11 +29,11 @@ def _carrying_graph(network: Network, any_position: bool = False) -> nx.DiGraph:
     graph.add_node(_ROOT)
     for node in network.nodes:
         graph.add_node(node.id)
-        if node.is_source and node.in_service and node.available_w > 0:
+        if node.is_source and node.in_use and node.available_w > 0:
             graph.add_edge(_ROOT, node.id)
     for link in network.links:
         tail, head = network.node[link.tail], network.node[link.head]
-        if network.port_gain_max(link) <= 0.0 or (not tail.in_service and not tail.is_scanner):
+        if network.port_gain_max(link) <= 0.0 or (not tail.in_use and not tail.is_scanner):
             continue
         if (head.behaviour is Behaviour.COMBINE and not any_position
                 and head.select not in (None, link.tail)):
@@ -65,7 +65,7 @@ def single_points_of_failure(network: Network, *, any_position: bool = False
     idom = nx.immediate_dominators(graph, _ROOT)
     cuts: dict[str, list[str]] = {}
     for scanner in network.scanners:
-        if scanner.id not in idom or not scanner.in_service:
+        if scanner.id not in idom or not scanner.in_use:
             continue
         current = idom[scanner.id]
         while current != _ROOT:

@@ -183,7 +183,7 @@ def _ancestors(network: Network, node_id: str) -> set[str]:
 
 def _below_outages(network: Network) -> set[str]:
     """Every node downstream of a node out of service (one search for the whole plan)."""
-    stack = [n.id for n in network.nodes if not n.in_service]
+    stack = [n.id for n in network.nodes if not n.in_use]
     seen = set(stack)
     if not stack:
         return seen
@@ -253,7 +253,7 @@ def shortfall_limits(model: LpModel, outcome: GoalOutcome, scanner_id: str,
     ups = _ancestors(network, scanner_id) if scanner_id in downstream \
         or outcome.primary == "shortfall" else set()
     reasons = [f"{network.node[u].kind} '{u}' on its path is out of service"
-               for u in sorted(ups) if not network.node[u].in_service]
+               for u in sorted(ups) if not network.node[u].in_use]
     if network.max_gains[scanner_id] <= 0.0:
         return tuple(reasons) or ("no path from a source passes any power (a gain of zero on "
                                   "every path)",)

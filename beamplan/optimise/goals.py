@@ -74,7 +74,7 @@ class _Driver:
     def scanners(self) -> list[Node]:
         """The scanners in service (an outage takes a scanner's need away)."""
         return [s for s in self.m.network.scanners
-                if s.in_service and s.id not in self.m.out_of_service]
+                if s.in_use and s.id not in self.m.out_of_service]
 
     def need(self, sid: str) -> float:
         return self.m.network.node[sid].need_w

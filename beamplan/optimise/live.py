@@ -95,7 +95,7 @@ class LiveModel:
         network = self.model.network
         delivered = {}
         for node in network.scanners:
-            if node.in_service and node.id not in self.model.out_of_service:
+            if node.in_use and node.id not in self.model.out_of_service:
                 delivered[node.id] = sum(self.model.link_value(link.index, cols)
                                          for link in network.in_links[node.id]
                                          if link.index not in self._dead)
@@ -190,13 +190,13 @@ class LiveModel:
         net = self.network
         select = {sid: net.node[sid].select for sid in self.switches}
         select.update(positions or {})
-        seen = {n.id for n in net.sources if n.in_service and n.available_w > 0
+        seen = {n.id for n in net.sources if n.in_use and n.available_w > 0
                 and n.id not in failed}
         stack = list(seen)
         while stack:
             tail = stack.pop()
             for head in self._succ.get(tail, ()):
-                if head in seen or head in failed or not net.node[head].in_service:
+                if head in seen or head in failed or not net.node[head].in_use:
                     continue
                 if select.get(head, tail) != tail:
                     continue  # a switch set to another input
@@ -286,7 +286,7 @@ class LiveModel:
         failed = {n.id: out_of_service(n) for n in originals}
         case_network = self._with_nodes(failed)
         for node in originals:
-            if node.in_service:
+            if node.in_use:
                 self._set_service(node, False)
                 if node.behaviour is Behaviour.GAIN:
                     self._dead.update(link.index for link in self._after(node.id))
@@ -301,5 +301,5 @@ class LiveModel:
             self._dead = set()
             self._failed = set()
             for node in originals:
-                if node.in_service:
+                if node.in_use:
                     self._set_service(node, True)

@@ -410,7 +410,7 @@ def _scanner_families(m: LpModel) -> None:
         m.demand_row[node.id] = m.add_row(
             _plus((1.0, inflow), (1.0, {short: 1.0}), (-node.need_w, {m.factor_col: 1.0})),
             Row(f"dem{tag}", Family.DEMAND, node.id), low=0.0)
-        if node.max_w is not None and node.in_service:
+        if node.max_w is not None and node.in_use:
             m.max_row[node.id] = m.add_row(inflow, Row(f"cap{tag}", Family.MAX_POWER, node.id),
                                            high=node.max_w)
 

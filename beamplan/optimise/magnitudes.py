@@ -60,7 +60,7 @@ def check_magnitudes(network: Network) -> None:
     for node in network.nodes:
         if node.is_source and _bad(node.available_w, True):
             refuse(node.id, "source", "power", node.available_w, node.location)
-        if node.is_scanner and node.in_service and _bad(node.need_w, False):
+        if node.is_scanner and node.in_use and _bad(node.need_w, False):
             refuse(node.id, "scanner", "need", node.need_w, node.location)
         if node.is_scanner and _bad(node.max_given_w, True):
             refuse(node.id, "scanner", "max_power", node.max_given_w or 0.0, node.location)
@@ -76,7 +76,7 @@ def _wall_plug(network: Network) -> list[Diagnostic]:
     out = []
     for node in network.sources:
         full, fixed = node.electrical_w, node.electrical_fixed_w
-        if full is None or not node.in_service:
+        if full is None or not node.in_use:
             continue
         if not (math.isfinite(full) and full > 0 and full >= node.available_w):
             out.append(Diagnostic(

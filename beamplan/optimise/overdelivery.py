@@ -112,7 +112,7 @@ def over_delivery_reasons(model: LpModel, outcome: GoalOutcome, flows: Flows,
     cache: dict[int, object] = {}  # each stage's duals read once (see shortfall_limits)
     for node in network.scanners:
         delivered = flows.incident_w.get(node.id, 0.0)
-        if not node.in_service or delivered <= node.need_w * (1.0 + OVER_RTOL):
+        if not node.in_use or delivered <= node.need_w * (1.0 + OVER_RTOL):
             continue
         reasons = []
         goal_reason = _goal_reason(model, outcome, node, delivered, goal, cache)

@@ -39,7 +39,7 @@ def _scanners(model: LpModel, outcome: GoalOutcome, flows: Flows, goal: str
     for node in network.scanners:
         delivered = flows.incident_w[node.id]
         caps = {"useful_ceiling_w": node.ceiling_w, "max_power_w": node.max_given_w}
-        if not node.in_service:
+        if not node.in_use:
             out.append(ScannerResult(node.id, node.need_w, 0.0, node.max_w, node.priority, 0.0,
                                      0.0, ScannerStatus.OUT_OF_SERVICE, (), node.provenance,
                                      **caps))  # type: ignore[arg-type]
@@ -92,11 +92,11 @@ def _losses(network: Network, flows: Flows, source_total: float) -> Losses:
     by_kind: dict[str, float] = defaultdict(float)
     absorbed = dumped = delivered = 0.0
     for node in network.nodes:
-        if node.is_scanner and not node.in_service:
+        if node.is_scanner and not node.in_use:
             dumped += flows.incident_w[node.id]
         elif node.is_scanner:
             delivered += flows.incident_w[node.id]
-        elif node.behaviour is Behaviour.ABSORB or (not node.in_service
+        elif node.behaviour is Behaviour.ABSORB or (not node.in_use
                                                     and not node.is_source):
             dumped += flows.absorbed_w[node.id]
         elif not node.is_source:

@@ -118,7 +118,7 @@ def _tol(limit: Limit | Answer) -> float:
 def _costs(lp: SizingLp) -> dict[int, float]:
     """The combined relaxation's cost per W of each relaxation column (see COSTS)."""
     net = lp.network
-    power = sum(s.available_w for s in net.sources if s.in_service)
+    power = sum(s.available_w for s in net.sources if s.in_use)
     cost = {}
     for limit in lp.limits:
         if limit.is_fraction:

@@ -199,7 +199,7 @@ def _may_pass(network: Network, link: Link) -> bool:
     passes; an outage passes nothing.
     """
     tail = network.node[link.tail]
-    if not tail.in_service:
+    if not tail.in_use:
         return False
     if tail.behaviour is Behaviour.SPLIT:
         return any(p.efficiency > 0.0 for p in tail.ports if p.name == link.port)
@@ -228,14 +228,14 @@ def reachable_scanners(network: Network) -> frozenset[str]:
         blocked = head.behaviour is Behaviour.COMBINE and head.select not in (None, link.tail)
         if not blocked and _may_pass(network, link):
             carry.setdefault(link.tail, []).append(link.head)
-    stack = [s.id for s in network.sources if s.in_service and s.available_w > 0.0]
+    stack = [s.id for s in network.sources if s.in_use and s.available_w > 0.0]
     seen = set(stack)
     while stack:
         for nxt in carry.get(stack.pop(), ()):
             if nxt not in seen:
                 seen.add(nxt)
                 stack.append(nxt)
-    return frozenset(n.id for n in network.scanners if n.id in seen and n.in_service)
+    return frozenset(n.id for n in network.scanners if n.id in seen and n.in_use)
 
 
 def _limit(m: SizingLp, family: Family, node: Node, port: str | None, value: float,
@@ -270,7 +270,7 @@ def _sources(m: SizingLp) -> None:
         if link is None:
             continue
         col = m.link_col[link.index]
-        if node.in_service:
+        if node.in_use:
             _limit(m, Family.SOURCE, node, None, node.available_w, {col: 1.0}, +1)
         else:
             m.col_high[col] = 0.0
@@ -326,7 +326,7 @@ def _elements(m: SizingLp) -> None:
 def _scanners(m: SizingLp) -> None:
     served = reachable_scanners(m.network)
     for node in m.network.scanners:
-        if not node.in_service:
+        if not node.in_use:
             continue
         inflow = m.inflow(node.id)
         if node.id in served and node.need_w > 0.0:

@@ -37,7 +37,7 @@ def _deviation_rows(model: LpModel, base: Mapping[str, Setting]) -> list[int]:
     columns: list[int] = []
     for i, node in enumerate(net.elements):
         setting = base.get(node.id)
-        if setting is None or not node.in_service:
+        if setting is None or not node.in_use:
             continue  # a failed element has no setting to keep: it passes nothing
         inflow = model.inflow(node.id)
         pairs: list[tuple[str | None, Any, float]] = []

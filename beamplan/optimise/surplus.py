@@ -44,7 +44,7 @@ def _below(network: Network, node_id: str) -> set[str]:
 def surplus_modes(network: Network) -> set[str]:
     """The surplus modes other than ``turn-down`` that sources in service ask for."""
     return {n.surplus for n in network.sources
-            if n.in_service and n.available_w > 0 and n.surplus != "turn-down"}
+            if n.in_use and n.available_w > 0 and n.surplus != "turn-down"}
 
 
 def check_surplus(network: Network) -> None:
@@ -64,7 +64,7 @@ def check_surplus(network: Network) -> None:
     """
     problems = []
     for node in network.sources:
-        if node.surplus == "turn-down" or not node.in_service:
+        if node.surplus == "turn-down" or not node.in_use:
             continue
         below = _below(network, node.id)
         wanted = ABSORBERS[node.surplus]
@@ -104,7 +104,7 @@ def settle_surplus(model: LpModel, backend: Backend, outcome: GoalOutcome) -> Go
             pinned.append(col)
     costs: dict[int, float] = {}
     for node in network.elements:
-        if node.behaviour not in {ABSORBERS[m] for m in modes} or not node.in_service:
+        if node.behaviour not in {ABSORBERS[m] for m in modes} or not node.in_use:
             continue
         for link in network.in_links[node.id]:
             col = model.link_col[link.index]

@@ -124,8 +124,8 @@ def compare(scanners: int, repeats: int) -> None:
     network = campus(scanners)
     model = build_lp(network)
     lp = highs_lp(model, np.arange(len(model.col_name)))  # HiGHS columns = the model's
-    in_service = [s for s in network.scanners if s.in_service]
-    demand = [(model.demand_row[s.id], s.need_w) for s in in_service]
+    in_use = [s for s in network.scanners if s.in_use]
+    demand = [(model.demand_row[s.id], s.need_w) for s in in_use]
     sources = list(model.source_col.values())
     ours, raw, tuned = [], [], []
     plan = None
@@ -140,9 +140,9 @@ def compare(scanners: int, repeats: int) -> None:
         if scanners < 10000:  # the tuned reference at 10,000 scanners takes minutes
             tuned.append(reference(lp, model.factor_col, demand, sources, True)[0])
     assert plan is not None
-    got = np.array([plan.scanner(s.id).delivered_w / s.need_w for s in in_service])
+    got = np.array([plan.scanner(s.id).delivered_w / s.need_w for s in in_use])
     want = np.array([sum(v * ref_columns[c] for c, v in model.inflow_coefs(s.id).items())
-                     / s.need_w for s in in_service])
+                     / s.need_w for s in in_use])
     worst = float(np.max(np.abs(got - want) / np.maximum(np.abs(want), 1e-300)))
     a, b = statistics.median(ours), statistics.median(raw)
     ratios = [x / y for x, y in zip(ours, raw, strict=True)]
