@@ -32,6 +32,7 @@ reach are left to the LP: :func:`is_tree` says no.
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 from typing import Any
 
@@ -44,6 +45,7 @@ __all__ = ["WaterFill", "is_tree", "tree_headroom", "water_fill"]
 
 INF = float("inf")
 DUAL_TOL = 1e-9  # as beamplan.optimise.goals
+_TREES: dict[int, tuple[weakref.ref[Network], bool]] = {}  # is_tree, per network
 
 
 @dataclass(frozen=True)
@@ -107,13 +109,22 @@ def is_tree(network: Network) -> bool:
     >>> is_tree(build_network(beamplan.load("layouts/pilot-line.yaml")))  # bounded shares
     False
     """
+    known = _TREES.get(id(network))
+    if known is not None and known[0]() is network:
+        return known[1]
+    answer = _is_tree(network)
+    _TREES[id(network)] = (weakref.ref(network), answer)
+    if len(_TREES) > 64:  # forget networks that are gone
+        for key in [k for k, (ref, _) in list(_TREES.items()) if ref() is None]:
+            _TREES.pop(key, None)
+    return answer
+
+
+def _is_tree(network: Network) -> bool:
     sources = network.sources
     if len(sources) != 1 or not sources[0].in_service:
         return False
     if any(len(links) > 1 for links in network.in_links.values()):
-        return False
-    order = _order(network, sources[0].id)
-    if order is None or len(order) != len(network.nodes):
         return False
     gains = network.max_gains
     for node in network.nodes:
@@ -124,7 +135,8 @@ def is_tree(network: Network) -> bool:
             return False
         if node.is_scanner and node.in_service and (node.need_w <= 0.0 or gains[node.id] <= 0.0):
             return False
-    return True
+    order = _order(network, sources[0].id)
+    return order is not None and len(order) == len(network.nodes)
 
 
 def _bind(weights: np.ndarray, taus: np.ndarray, bound: float, held: np.ndarray) -> float:
@@ -133,6 +145,11 @@ def _bind(weights: np.ndarray, taus: np.ndarray, bound: float, held: np.ndarray)
     A scanner frozen below t counts at ``held`` (its level less the give of
     a held demand row) rather than at τ, as in the LP's later stages.
     """
+    if len(weights) == 1:  # one scanner: one piece, no sort
+        one, cap = float(weights[0]), float(taus[0])
+        if one <= 0.0 or one * cap <= bound:
+            return INF
+        return max(bound / one, 0.0)
     order = np.argsort(taus, kind="stable")
     w, tau, hold = weights[order], taus[order], held[order]
     finite = np.isfinite(tau)
@@ -307,9 +324,6 @@ def tree_headroom(driver: Any, active: list[str], levels: dict[str, float]) -> b
     m = driver.m
     if m.out_of_service or m.unreachable or not active or not is_tree(m.network):
         return False
-    fill = water_fill(m.network, driver.b.freeze_slack, driver.b.freeze_abs_w)
-    if set(fill.levels) != set(active):
-        return False
     for sid in active:
         driver.demand_active(sid)
     driver.objective({m.factor_col: -1.0})
@@ -323,6 +337,11 @@ def tree_headroom(driver: Any, active: list[str], levels: dict[str, float]) -> b
         levels[sid] = level
         driver.freeze_duals[sid] = duals
         driver.demand_fixed(sid, level)
+    if len(blocked) == len(active):  # one stage froze them all: nothing left to fill
+        return True
+    fill = water_fill(m.network, driver.b.freeze_slack, driver.b.freeze_abs_w)
+    if set(fill.levels) != set(active):
+        return False
     groups: dict[str, list[str]] = {}
     for sid in active:
         groups.setdefault(fill.held_by[sid], []).append(sid)
