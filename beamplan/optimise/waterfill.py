@@ -45,6 +45,7 @@ __all__ = ["WaterFill", "is_tree", "tree_headroom", "water_fill"]
 
 INF = float("inf")
 DUAL_TOL = 1e-9  # as beamplan.optimise.goals
+MAX_PRICED = 200_000_000  # rounds × rows of priced-row marks kept (200 MB, a byte each)
 _TREES: dict[int, tuple[weakref.ref[Network], bool]] = {}  # is_tree, per network
 
 
@@ -261,11 +262,9 @@ def water_fill(network: Network, slack: float = 0.0, give_w: float = 0.0) -> Wat
                      {sid: str(who[i]) for i, sid in enumerate(ids)})
 
 
-def _subtree(network: Network, top: str) -> tuple[list[str], list[str]]:
+def _subtree(network: Network, heads: dict[str, list[str]], top: str
+             ) -> tuple[list[str], list[str]]:
     """The scanners in service and the attenuators below ``top`` (``top`` included)."""
-    heads: dict[str, list[str]] = {}
-    for link in network.links:
-        heads.setdefault(link.tail, []).append(link.head)
     scanners, ranges, stack = [], [], [top]
     while stack:
         name = stack.pop()
@@ -278,8 +277,8 @@ def _subtree(network: Network, top: str) -> tuple[list[str], list[str]]:
     return scanners, ranges
 
 
-def _stage_duals(model: Any, top: str, levels: dict[str, float], range_rows: dict[str, int]
-                 ) -> np.ndarray:
+def _stage_duals(model: Any, top: str, levels: dict[str, float], range_rows: dict[str, int],
+                 heads: dict[str, list[str]]) -> np.ndarray:
     """Which rows the LP stage that freezes ``top``'s scanners prices (sign and size unused).
 
     The limit of ``top``; the demand rows of the scanners it feeds (those
@@ -287,26 +286,26 @@ def _stage_duals(model: Any, top: str, levels: dict[str, float], range_rows: dic
     every attenuator on their paths (more transmission, less power needed).
     """
     node = model.network.node[top]
-    duals = np.zeros(len(model.row_info))
+    duals = np.zeros(len(model.row_info), dtype=np.int8)  # a byte a row: marks, not prices
     row = (model.available_row[top] if node.is_source else
            model.max_row[top] if node.is_scanner else model.heat_row[top])
-    duals[row] = 1.0
+    duals[row] = 1
     if node.behaviour is Behaviour.SPLIT:  # only its lossy outputs heat it
         scanners, ranges = [], []
         for port in node.ports:
             link = model.network.out_link.get((top, port.name))
             if link is not None and port.efficiency < 1.0:
-                below, attenuators = _subtree(model.network, link.head)
+                below, attenuators = _subtree(model.network, heads, link.head)
                 scanners += below
                 ranges += attenuators
     else:
-        scanners, ranges = _subtree(model.network, top)
+        scanners, ranges = _subtree(model.network, heads, top)
     powered = {s for s in scanners if levels.get(s, 0.0) > 0.0}
     for sid in powered:
-        duals[model.demand_row[sid]] = 1.0
+        duals[model.demand_row[sid]] = 1
     for name in ranges:
-        if name in range_rows and _subtree(model.network, name)[0]:
-            duals[range_rows[name]] = 1.0
+        if name in range_rows and _subtree(model.network, heads, name)[0]:
+            duals[range_rows[name]] = 1
     return duals
 
 
@@ -320,6 +319,9 @@ def tree_headroom(driver: Any, active: list[str], levels: dict[str, float]) -> b
     each later stage's priced rows are derived from the limit that binds
     there. Returns False, with the first stage's scanners frozen, when the
     network is not a tree or the two disagree: the LP filling then goes on.
+    Where several limits bind at one level, each makes its own round (the LP
+    would freeze whichever its dual prices), so reasons name each scanner's
+    own limit.
     """
     m = driver.m
     if m.out_of_service or m.unreachable or not active or not is_tree(m.network):
@@ -345,19 +347,28 @@ def tree_headroom(driver: Any, active: list[str], levels: dict[str, float]) -> b
     groups: dict[str, list[str]] = {}
     for sid in active:
         groups.setdefault(fill.held_by[sid], []).append(sid)
-    order = sorted(groups, key=lambda top: (fill.levels[groups[top][0]], top))
-    first = groups[order[0]]
-    low = fill.levels[first[0]]
-    if abs(level - low) > 1e-9 * max(abs(low), 1e-300) or set(first) != set(blocked):
+    done = {fill.held_by[sid] for sid in blocked}  # the limits the LP stage priced
+    if any(abs(fill.levels[sid] - level) > 1e-9 * max(abs(level), 1e-300) for sid in blocked) \
+            or sum(len(groups[top]) for top in done) != len(blocked):
         return False
+    # Later rounds by level; limits that bind at the same level (a tie, where the LP
+    # freezes whichever its dual prices) each make their own round.
+    order = sorted((top for top in groups if top not in done),
+                   key=lambda top: (fill.levels[groups[top][0]], top))
+    if len(order) * len(m.row_info) > MAX_PRICED:
+        return False  # too many rounds to keep each one's priced rows: the LP goes on
     range_rows = {info.node: r for r, info in enumerate(m.row_info)
                   if info.family == "range-high"}
-    for top in order[1:]:
+    held = {**fill.levels, **levels}
+    heads: dict[str, list[str]] = {}
+    for link in m.network.links:
+        heads.setdefault(link.tail, []).append(link.head)
+    for top in order:
         group = groups[top]
         for sid in group:
             levels[sid] = fill.levels[sid]
             driver.demand_fixed(sid, fill.levels[sid])
-        stage = _stage_duals(m, top, {**fill.levels, **levels}, range_rows)
+        stage = _stage_duals(m, top, held, range_rows, heads)
         for sid in group:
             driver.freeze_duals[sid] = stage
         driver.stages += 1  # the LP stage this round stands for

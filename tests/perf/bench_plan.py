@@ -15,7 +15,8 @@ this one run and alternating A B A B:
   HiGHS's default simplex strategy.
 
 With ``--tree`` the campus's taps share freely (no 50 % bound on the
-picked output), so the campus is a tree and ``plan`` takes the water-filling
+picked output; ``--fold-heat 10`` also makes branch heat limits bind at many
+levels), so the campus is a tree and ``plan`` takes the water-filling
 path (optimise/waterfill.py: one LP stage for the shadow prices, every later
 level by water-filling, then the least-source stage); the row then also
 gives the water-filling alone (``fill (s)``) and ``plan`` with the LP
@@ -48,6 +49,7 @@ sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspa
 
 from campus import campus_yaml
 
+from beamplan.layout.limits import LIMITS
 from beamplan.layout.loader import parse_layout
 from beamplan.layout.yamlpos import parse_yaml
 from beamplan.network.graph import Network, build_network
@@ -60,12 +62,17 @@ DUAL_TOL = 1e-9  # as beamplan.optimise.goals
 SLACK, GIVE_W = 1e-9, 1e-8  # the HiGHS back end's freeze slack and absolute give
 
 
-def campus(scanners: int, tree: bool = False) -> Network:
-    """The synthetic campus as a built network (``tree``: taps share freely)."""
-    text = campus_yaml(scanners)
+def campus(scanners: int, tree: bool = False, fold_heat_w: float = 220.0) -> Network:
+    """The synthetic campus as a built network (read with the large input limits).
+
+    ``tree``: the taps share freely. ``fold_heat_w``: the fold mirrors' heat
+    limit (10 W holds the branches of the larger scanners by their first fold,
+    each branch at its own level: a stage each in the LP filling).
+    """
+    text = campus_yaml(scanners).replace("heat_limit: 220 W", f"heat_limit: {fold_heat_w:g} W")
     if tree:
         text = text.replace(", fraction: [0.0, 0.5]", "")
-    return build_network(parse_layout(parse_yaml(text, "campus")))
+    return build_network(parse_layout(parse_yaml(text, "campus", LIMITS["large"])))
 
 
 def lp_filled(network: Network) -> tuple[float, int]:
@@ -134,18 +141,19 @@ def reference(lp: Any, factor: int, demand: list[tuple[int, float]], sources: li
     return time.perf_counter() - start, columns, stages
 
 
-def child(scanners: int, tree: bool = False) -> None:
+def child(scanners: int, tree: bool = False, fold_heat_w: float = 220.0) -> None:
     """Load and plan one campus; print the peak resident memory in MB."""
     start = time.perf_counter()
-    plan = plan_network(campus(scanners, tree))
+    plan = plan_network(campus(scanners, tree, fold_heat_w))
     wall = time.perf_counter() - start
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0  # kB on Linux
     print(f"{peak:.0f} {wall:.2f} {plan.stages}")
 
 
-def compare(scanners: int, repeats: int, tree: bool = False) -> None:
+def compare(scanners: int, repeats: int, tree: bool = False, fold_heat_w: float = 220.0
+            ) -> None:
     """Time A and B in turn and print one row."""
-    network = campus(scanners, tree)
+    network = campus(scanners, tree, fold_heat_w)
     model = build_lp(network)
     lp = highs_lp(model, np.arange(len(model.col_name)))  # HiGHS columns = the model's
     in_service = [s for s in network.scanners if s.in_service]
@@ -182,7 +190,7 @@ def compare(scanners: int, repeats: int, tree: bool = False) -> None:
         lp_seconds, lp_stages = lp_filled(network)
         extra = f" {fill:8.3f} {lp_seconds:11.3f} {lp_seconds / b:8.2f} {lp_stages:>4}"
     proc = subprocess.run([sys.executable, __file__, "--child", str(scanners)]
-                          + (["--tree"] if tree else []),
+                          + (["--tree"] if tree else []) + ["--fold-heat", str(fold_heat_w)],
                           capture_output=True, text=True, check=True,
                           env={**os.environ, "PYTHONPATH": ROOT})
     peak_mb = proc.stdout.split()[0]
@@ -199,15 +207,17 @@ def main() -> None:
                         help="timed runs of each (the 10,000 campus runs once)")
     parser.add_argument("--tree", action="store_true",
                         help="taps without share bounds: a tree, planned by water-filling")
+    parser.add_argument("--fold-heat", type=float, default=220.0,
+                        help="the fold mirrors' heat limit in W (default 220, as campus.py)")
     parser.add_argument("--child", type=int, help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.child:
-        child(args.child, args.tree)
+        child(args.child, args.tree, args.fold_heat)
         return
     print("scanners elements  plan (s)   raw (s)   ratio  ratio* stages    level diff  peak MB"
           + ("  fill (s) LP plan (s) LP ratio LP stages" if args.tree else ""))
     for size in args.sizes:
-        compare(size, 1 if size >= 10000 else args.repeats, args.tree)
+        compare(size, 1 if size >= 10000 else args.repeats, args.tree, args.fold_heat)
     print("ratio = beamplan plan / raw highspy progressive filling of the same LP, "
           "median of pairs;\nratio* = the same against raw highspy with beamplan's Devex edge "
           "weights;\nlevel diff = largest relative difference of a scanner's delivered ÷ need; "
