@@ -245,6 +245,12 @@ def water_fill(network: Network, slack: float = 0.0, give_w: float = 0.0) -> Wat
             loss = _limit(n)
             if loss is None:
                 continue
+            if b - a == 1:  # one scanner below (a branch): plain floats, no arrays
+                one = loss * float(need[a]) * gains[name] / float(gain[a])
+                bound = n.heat_limit_w or 0.0
+                if one > 0.0 and one * float(tau[a]) > bound:
+                    tau[a], who[a] = max(bound / one, 0.0), name
+                continue
             weights, bound = loss * need[a:b] * gains[name] / gain[a:b], n.heat_limit_w or 0.0
         give = np.minimum(give_w, 1e-4 * need[a:b]) / need[a:b]
         held = np.maximum(tau[a:b] * (1.0 - slack) - give, 0.0)
