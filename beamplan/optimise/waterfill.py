@@ -46,7 +46,7 @@ __all__ = ["WaterFill", "is_tree", "tree_headroom", "water_fill"]
 INF = float("inf")
 DUAL_TOL = 1e-9  # as beamplan.optimise.goals
 MAX_PRICED = 200_000_000  # rounds × rows of priced-row marks kept (200 MB, a byte each)
-_TREES: dict[int, tuple[weakref.ref[Network], bool]] = {}  # is_tree, per network
+_TREES: dict[int, tuple[weakref.ref[Network], list[str] | None]] = {}  # per network
 
 
 @dataclass(frozen=True)
@@ -110,6 +110,11 @@ def is_tree(network: Network) -> bool:
     >>> is_tree(build_network(beamplan.load("layouts/pilot-line.yaml")))  # bounded shares
     False
     """
+    return _tree_order(network) is not None
+
+
+def _tree_order(network: Network) -> list[str] | None:
+    """The tree's nodes in pre-order from its source, or None (remembered per network)."""
     known = _TREES.get(id(network))
     if known is not None and known[0]() is network:
         return known[1]
@@ -121,23 +126,23 @@ def is_tree(network: Network) -> bool:
     return answer
 
 
-def _is_tree(network: Network) -> bool:
+def _is_tree(network: Network) -> list[str] | None:
     sources = network.sources
     if len(sources) != 1 or not sources[0].in_service:
-        return False
+        return None
     if any(len(links) > 1 for links in network.in_links.values()):
-        return False
+        return None
     gains = network.max_gains
     for node in network.nodes:
         if node.behaviour is Behaviour.SPLIT and not _trivial_shares(node):
-            return False
+            return None
         if node.behaviour is Behaviour.COMBINE and node.select is not None and \
                 node.select not in {link.tail for link in network.in_links[node.id]}:
-            return False
+            return None
         if node.is_scanner and node.in_service and (node.need_w <= 0.0 or gains[node.id] <= 0.0):
-            return False
+            return None
     order = _order(network, sources[0].id)
-    return order is not None and len(order) == len(network.nodes)
+    return order if order is not None and len(order) == len(network.nodes) else None
 
 
 def _bind(weights: np.ndarray, taus: np.ndarray, bound: float, held: np.ndarray) -> float:
@@ -197,11 +202,9 @@ def water_fill(network: Network, slack: float = 0.0, give_w: float = 0.0) -> Wat
     >>> fill.levels, fill.source_w
     ({'s1': 5.0}, 100.0)
     """
-    if not is_tree(network):
+    order = _tree_order(network)
+    if order is None:
         raise ValueError(f"network {network.name!r} is not a tree of one source")
-    source = network.sources[0]
-    order = _order(network, source.id)
-    assert order is not None
     node, gains = network.node, network.max_gains
     children: dict[str, list[tuple[str, str | None]]] = {}
     for link in network.links:
