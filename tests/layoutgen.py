@@ -185,8 +185,9 @@ def _flow(settings: Settings) -> str:
 
 
 class _Builder:
-    def __init__(self, ch: Choices, name: str) -> None:
+    def __init__(self, ch: Choices, name: str, tree: bool = False) -> None:
         self.ch = ch
+        self.tree = tree  # free splitter shares only
         self.spec = LayoutSpec(name)
         self.counts: dict[str, int] = {}
         self.switch_inputs: list[str] = []
@@ -299,7 +300,7 @@ class _Builder:
             out: Settings = {}
             if ch.chance(0.6):
                 out["efficiency"] = ch.uniform(0.8, 1.0, 3)
-            mode = 2 if ch.chance(0.2) else 1 if ch.chance(0.35) else 0
+            mode = 0 if self.tree else 2 if ch.chance(0.2) else 1 if ch.chance(0.35) else 0
             low, high = 0.0, 1.0
             if mode == 1:
                 low = round(max(0.0, frac - ch.uniform(0.0, 0.5, 2)), 2)
@@ -341,10 +342,15 @@ class _Builder:
         return sid
 
 
-def generate(ch: Choices, name: str = "generated", max_scanners: int = 30) -> LayoutSpec:
-    """Generate one layout (2 to ``max_scanners`` scanners) with the given choices."""
-    b = _Builder(ch, name)
-    n_sources = 2 if ch.chance(0.35) else 1
+def generate(ch: Choices, name: str = "generated", max_scanners: int = 30,
+             tree: bool = False) -> LayoutSpec:
+    """Generate one layout (2 to ``max_scanners`` scanners) with the given choices.
+
+    ``tree``: one source and splitter shares free in [0, 1] (the layouts that
+    water-filling solves without the LP).
+    """
+    b = _Builder(ch, name, tree)
+    n_sources = 1 if tree else 2 if ch.chance(0.35) else 1
     n_scanners = ch.integer(2, max(2, min(max_scanners, 30)))
     scanners = [b.scanner() for _ in range(n_scanners)]
     powers = [ch.uniform(1000.0, 20000.0, 1) for _ in range(n_sources)]
@@ -377,20 +383,20 @@ def generate(ch: Choices, name: str = "generated", max_scanners: int = 30) -> La
     return b.spec
 
 
-def random_spec(seed: int, max_scanners: int = 30) -> LayoutSpec:
+def random_spec(seed: int, max_scanners: int = 30, tree: bool = False) -> LayoutSpec:
     """A random layout from a seed (the same seed gives the same layout)."""
-    return generate(SeededChoices(seed), f"random-{seed}", max_scanners)
+    return generate(SeededChoices(seed), f"random-{seed}", max_scanners, tree)
 
 
-def random_layout(seed: int, max_scanners: int = 30) -> str:
+def random_layout(seed: int, max_scanners: int = 30, tree: bool = False) -> str:
     """A random layout's YAML text from a seed (deterministic)."""
-    return random_spec(seed, max_scanners).yaml()
+    return random_spec(seed, max_scanners, tree).yaml()
 
 
 @st.composite
-def layout_specs(draw: Any, max_scanners: int = 30) -> LayoutSpec:
-    """Hypothesis strategy: a random :class:`LayoutSpec`."""
-    return generate(DrawChoices(draw), "hypothesis", max_scanners)
+def layout_specs(draw: Any, max_scanners: int = 30, tree: bool = False) -> LayoutSpec:
+    """Hypothesis strategy: a random :class:`LayoutSpec` (``tree``: see :func:`generate`)."""
+    return generate(DrawChoices(draw), "hypothesis", max_scanners, tree)
 
 
 def layouts(max_scanners: int = 30) -> st.SearchStrategy[str]:

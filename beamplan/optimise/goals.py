@@ -162,8 +162,12 @@ def _reset(d: _Driver) -> None:
 
 
 def _headroom(d: _Driver) -> GoalOutcome:
+    from beamplan.optimise.waterfill import tree_headroom
+
     levels: dict[str, float] = {}
-    d.fill(d.hold_unreachable(levels), levels)
+    active = d.hold_unreachable(levels)
+    if not tree_headroom(d, active, levels):  # a tree: one LP stage, then water-filling
+        d.fill(active, levels)
     final = d.frugal()
     first = d.first or final
     return GoalOutcome(final, "factor", first.row_duals, float(first.columns[d.m.factor_col]),

@@ -14,6 +14,14 @@ this one run and alternating A B A B:
   row carries a positive dual; repeat; then the least source power), with
   HiGHS's default simplex strategy.
 
+With ``--tree`` the campus's taps share freely (no 50 % bound on the
+picked output; ``--fold-heat 10`` also makes branch heat limits bind at many
+levels), so the campus is a tree and ``plan`` takes the water-filling
+path (optimise/waterfill.py: one LP stage for the shadow prices, every later
+level by water-filling, then the least-source stage); the row then also
+gives the water-filling alone (``fill (s)``) and ``plan`` with the LP
+filling forced (``LP plan (s)``).
+
 It prints the medians, the ratio A/B (the issue's targets: at most 1.5 at
 1,000 scanners, under 1 at 10,000), whether the two agree on every
 scanner's level (1e-9 relative), and the peak resident memory of a child
@@ -41,6 +49,7 @@ sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspa
 
 from campus import campus_yaml
 
+from beamplan.layout.limits import LIMITS
 from beamplan.layout.loader import parse_layout
 from beamplan.layout.yamlpos import parse_yaml
 from beamplan.network.graph import Network, build_network
@@ -53,9 +62,36 @@ DUAL_TOL = 1e-9  # as beamplan.optimise.goals
 SLACK, GIVE_W = 1e-9, 1e-8  # the HiGHS back end's freeze slack and absolute give
 
 
-def campus(scanners: int) -> Network:
-    """The synthetic campus as a built network."""
-    return build_network(parse_layout(parse_yaml(campus_yaml(scanners), "campus")))
+def campus(scanners: int, tree: bool = False, fold_heat_w: float = 220.0) -> Network:
+    """The synthetic campus as a built network (read with the large input limits).
+
+    ``tree``: the taps share freely. ``fold_heat_w``: the fold mirrors' heat
+    limit (10 W holds the branches of the larger scanners by their first fold,
+    each branch at its own level: a stage each in the LP filling).
+    """
+    text = campus_yaml(scanners).replace("heat_limit: 220 W", f"heat_limit: {fold_heat_w:g} W")
+    if tree:
+        text = text.replace(", fraction: [0.0, 0.5]", "")
+    return build_network(parse_layout(parse_yaml(text, "campus", LIMITS["large"])))
+
+
+def lp_filled(scanners: int, fold_heat_w: float) -> tuple[float, int]:
+    """``plan_network`` with the water-filling path turned off: seconds and stages.
+
+    On a campus built afresh, so that it pays for the network's cached tables
+    (gains, link maps) as the first timed ``plan`` does.
+    """
+    from beamplan.optimise import waterfill
+
+    network = campus(scanners, True, fold_heat_w)
+    keep = waterfill.tree_headroom
+    waterfill.tree_headroom = lambda *args: False  # type: ignore[assignment]
+    try:
+        start = time.perf_counter()
+        plan = plan_network(network)
+        return time.perf_counter() - start, plan.stages
+    finally:
+        waterfill.tree_headroom = keep
 
 
 def reference(lp: Any, factor: int, demand: list[tuple[int, float]], sources: list[int],
@@ -110,18 +146,19 @@ def reference(lp: Any, factor: int, demand: list[tuple[int, float]], sources: li
     return time.perf_counter() - start, columns, stages
 
 
-def child(scanners: int) -> None:
+def child(scanners: int, tree: bool = False, fold_heat_w: float = 220.0) -> None:
     """Load and plan one campus; print the peak resident memory in MB."""
     start = time.perf_counter()
-    plan = plan_network(campus(scanners))
+    plan = plan_network(campus(scanners, tree, fold_heat_w))
     wall = time.perf_counter() - start
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0  # kB on Linux
     print(f"{peak:.0f} {wall:.2f} {plan.stages}")
 
 
-def compare(scanners: int, repeats: int) -> None:
+def compare(scanners: int, repeats: int, tree: bool = False, fold_heat_w: float = 220.0
+            ) -> None:
     """Time A and B in turn and print one row."""
-    network = campus(scanners)
+    network = campus(scanners, tree, fold_heat_w)
     model = build_lp(network)
     lp = highs_lp(model, np.arange(len(model.col_name)))  # HiGHS columns = the model's
     in_use = [s for s in network.scanners if s.in_use]
@@ -148,14 +185,24 @@ def compare(scanners: int, repeats: int) -> None:
     ratios = [x / y for x, y in zip(ours, raw, strict=True)]
     tuned_ratio = (f"{statistics.median(x / y for x, y in zip(ours, tuned, strict=True)):7.2f}"
                    if tuned else "      -")
-    proc = subprocess.run([sys.executable, __file__, "--child", str(scanners)],
+    extra = ""
+    if tree:
+        from beamplan.optimise.waterfill import water_fill
+
+        start = time.perf_counter()
+        water_fill(network)
+        fill = time.perf_counter() - start
+        lp_seconds, lp_stages = lp_filled(scanners, fold_heat_w)
+        extra = f" {fill:8.3f} {lp_seconds:11.3f} {lp_seconds / b:8.2f} {lp_stages:>4}"
+    proc = subprocess.run([sys.executable, __file__, "--child", str(scanners)]
+                          + (["--tree"] if tree else []) + ["--fold-heat", str(fold_heat_w)],
                           capture_output=True, text=True, check=True,
                           env={**os.environ, "PYTHONPATH": ROOT})
     peak_mb = proc.stdout.split()[0]
     print(f"{scanners:>7} {len(network.elements):>8} {a:9.3f} {b:9.3f} "
           f"{statistics.median(ratios):7.2f} {tuned_ratio} {plan.stages:>4}/{ref_stages:<4} "
           f"{worst:10.1e} "
-          f"{peak_mb:>8}")
+          f"{peak_mb:>8}{extra}")
 
 
 def main() -> None:
@@ -163,14 +210,19 @@ def main() -> None:
     parser.add_argument("--sizes", type=int, nargs="+", default=[100, 1000, 10000])
     parser.add_argument("--repeats", type=int, default=3,
                         help="timed runs of each (the 10,000 campus runs once)")
+    parser.add_argument("--tree", action="store_true",
+                        help="taps without share bounds: a tree, planned by water-filling")
+    parser.add_argument("--fold-heat", type=float, default=220.0,
+                        help="the fold mirrors' heat limit in W (default 220, as campus.py)")
     parser.add_argument("--child", type=int, help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.child:
-        child(args.child)
+        child(args.child, args.tree, args.fold_heat)
         return
-    print("scanners elements  plan (s)   raw (s)   ratio  ratio* stages    level diff  peak MB")
+    print("scanners elements  plan (s)   raw (s)   ratio  ratio* stages    level diff  peak MB"
+          + ("  fill (s) LP plan (s) LP ratio LP stages" if args.tree else ""))
     for size in args.sizes:
-        compare(size, 1 if size >= 10000 else args.repeats)
+        compare(size, 1 if size >= 10000 else args.repeats, args.tree, args.fold_heat)
     print("ratio = beamplan plan / raw highspy progressive filling of the same LP, "
           "median of pairs;\nratio* = the same against raw highspy with beamplan's Devex edge "
           "weights;\nlevel diff = largest relative difference of a scanner's delivered ÷ need; "
