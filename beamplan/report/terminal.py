@@ -70,7 +70,7 @@ def _header(plan: Plan) -> Table:
     per_kw = plan.electrical_per_delivered
     if per_kw is not None and plan.electrical_w is not None:
         grid.add_row("wall plug", f"{format_power(plan.electrical_w)} electrical, "
-                                  f"{per_kw:.0f} kW per kW delivered at IF")
+                                  f"{format_power(per_kw * 1e3)} per kW delivered at IF")
     return grid
 
 
