@@ -43,7 +43,7 @@ def _write(tmp_path: pathlib.Path, **extra: str) -> str:
 
 def test_offline_defaults_to_false(tmp_path: pathlib.Path) -> None:
     layout = beamplan.load(_write(tmp_path))
-    assert all(x.in_service for x in (*layout.sources, *layout.elements, *layout.scanners))
+    assert all(x.in_use for x in (*layout.sources, *layout.elements, *layout.scanners))
 
 
 @pytest.mark.parametrize("where", ["source", "element", "scanner"])
@@ -51,10 +51,10 @@ def test_offline_true_takes_the_part_out_of_use(tmp_path: pathlib.Path, where: s
     layout = beamplan.load(_write(tmp_path, **{where: "offline: true"}))
     group = {"source": layout.sources, "element": layout.elements,
              "scanner": layout.scanners}[where]
-    offline = [x.id for x in group if not x.in_service]
+    offline = [x.id for x in group if not x.in_use]
     assert offline == [{"source": "fel", "element": "m1", "scanner": "litho-1"}[where]]
     again = beamplan.load(_write(tmp_path, **{where: "offline: false"}))
-    assert all(x.in_service for x in (*again.sources, *again.elements, *again.scanners))
+    assert all(x.in_use for x in (*again.sources, *again.elements, *again.scanners))
 
 
 def test_an_offline_mirror_passes_nothing(tmp_path: pathlib.Path) -> None:
