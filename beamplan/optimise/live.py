@@ -1,9 +1,11 @@
 """A model built once and re-solved for many cases by editing it in place.
 
 :class:`LiveModel` keeps one LP and one solver back end (a warm HiGHS model).
-An outage is applied by changing coefficients and right-hand sides so that
-the LP is exactly the one :func:`beamplan.network.behaviour.out_of_service`
-would give if the network were rebuilt; a test checks that the two agree.
+An outage is applied by changing coefficients and right-hand sides, derived
+from :func:`beamplan.network.behaviour.out_of_service`: where the rows
+:func:`beamplan.optimise.lp.node_rows` writes for the nodes as they are and
+as out of service differ (:meth:`LiveModel.outage_edits`); tests check them
+against a rebuilt LP.
 A switch position is applied the way the LP builder writes ``select``: the
 selected input's entry in the switch's balance (and heat) row gets its
 coefficient, the other inputs' entries 0, so their power is dumped at the
