@@ -64,6 +64,8 @@ class LiveModel:
             self._succ.setdefault(link.tail, []).append(link.head)
         self._built: dict[tuple[int, int], float] = {}  # entries as they are in service
         self._held: dict[tuple[int, int], float] = {}  # entries an outage sets
+        self._edits: dict[tuple[str, ...], tuple[dict[tuple[int, int], float],
+                                                 dict[int, float]]] = {}  # single outages
         self._dead: set[int] = set()  # links after a failed GAIN element carry nothing
         self._dominated: dict[str, tuple[str, ...]] | None = None
         self._base_cut: set[str] = set()
@@ -306,7 +308,13 @@ class LiveModel:
         originals = [self.network.node[i] for i in ids]
         failed = {n.id: out_of_service(n) for n in originals}
         case_network = self._with_nodes(failed)
-        entries, rhs = self.outage_edits(ids)
+        key = tuple(ids)
+        if len(ids) != 1 or self.model.network is not self.network:  # pairs, switches moved
+            entries, rhs = self.outage_edits(ids)
+        elif key in self._edits:
+            entries, rhs = self._edits[key]
+        else:
+            entries, rhs = self._edits[key] = self.outage_edits(ids)
         self._apply(entries, rhs)
         for node in originals:
             if node.in_use:
