@@ -235,8 +235,9 @@ def out_of_service(node: Node) -> Node:
 
     An element absorbs whatever still reaches it (counted as dumped, with no
     heat limit); a source gives nothing; a scanner takes no need and whatever
-    reaches its closed port is dumped. The optimiser applies the same change
-    in place for sweeps (:mod:`beamplan.optimise.edits`).
+    reaches its closed port is dumped. This is the one definition: a live
+    model's in-place edits for sweeps are derived from it
+    (:meth:`beamplan.optimise.live.LiveModel.outage_edits`).
 
     Examples
     --------

@@ -1,9 +1,11 @@
 """A model built once and re-solved for many cases by editing it in place.
 
 :class:`LiveModel` keeps one LP and one solver back end (a warm HiGHS model).
-An outage is applied by changing coefficients and right-hand sides so that
-the LP is exactly the one :func:`beamplan.network.behaviour.out_of_service`
-would give if the network were rebuilt; a test checks that the two agree.
+An outage is applied by changing coefficients and right-hand sides, derived
+from :func:`beamplan.network.behaviour.out_of_service`: where the rows
+:func:`beamplan.optimise.lp.node_rows` writes for the nodes as they are and
+as out of service differ (:meth:`LiveModel.outage_edits`); tests check them
+against a rebuilt LP.
 A switch position is applied the way the LP builder writes ``select``: the
 selected input's entry in the switch's balance (and heat) row gets its
 coefficient, the other inputs' entries 0, so their power is dumped at the
@@ -20,7 +22,7 @@ from beamplan.network.behaviour import Behaviour, Node, out_of_service
 from beamplan.network.graph import Link, Network
 from beamplan.optimise.backend import INF, Backend, make_backend
 from beamplan.optimise.goals import run_goal
-from beamplan.optimise.lp import LpModel, build_lp, switch_terms
+from beamplan.optimise.lp import LpModel, build_lp, chain_coefs, node_rows, switch_terms
 from beamplan.optimise.planner import solve_model
 from beamplan.optimise.result import Plan
 from beamplan.vocabulary import Family, Goal, Solver
@@ -61,13 +63,17 @@ class LiveModel:
         for link in network.links:
             self._succ.setdefault(link.tail, []).append(link.head)
         self._built: dict[tuple[int, int], float] = {}  # entries as they are in service
-        self._off: set[tuple[int, int]] = set()  # entries an outage holds at zero
+        self._held: dict[tuple[int, int], float] = {}  # entries an outage sets
+        self._edits: dict[tuple[str, ...], tuple[dict[tuple[int, int], float],
+                                                 dict[int, float]]] = {}  # single outages
         self._dead: set[int] = set()  # links after a failed GAIN element carry nothing
         self._dominated: dict[str, tuple[str, ...]] | None = None
         self._base_cut: set[str] = set()
         self._rows: dict[str, list[int]] = {}
+        self._row: dict[tuple[str, Family, str | None], int] = {}
         for index, info in enumerate(self.model.row_info):
             self._rows.setdefault(info.node, []).append(index)
+            self._row[(info.node, info.family, info.port)] = index
         self.switches = self.switches_of(network)
         self._failed: set[str] = set()
         self._where = {family: {n.id: i for i, n in enumerate(getattr(network, family))}
@@ -105,44 +111,72 @@ class LiveModel:
     def _rows_of(self, node_id: str, family: Family) -> list[int]:
         return [r for r in self._rows.get(node_id, []) if self.model.row_info[r].family == family]
 
-    def _in_cols(self, node_id: str) -> list[int]:
-        return [self.model.link_col[link.index] for link in self.network.in_links[node_id]]
+    def outage_edits(self, node_ids: Iterable[str]
+                     ) -> tuple[dict[tuple[int, int], float], dict[int, float]]:
+        """The matrix entries and right-hand sides an outage of ``node_ids`` changes.
 
-    def _set_service(self, node: Node, on: bool) -> None:
-        b, m = self.backend, self.model
-        b_ = node.behaviour
-        if b_ is Behaviour.SOURCE:
-            b.set_rhs(m.available_row[node.id], node.available_w if on else 0.0)
-            return
-        if b_ is Behaviour.SINK:
-            if on:
-                m.out_of_service.discard(node.id)
-            else:
-                m.out_of_service.add(node.id)
-            if node.id in m.max_row:
-                b.set_rhs(m.max_row[node.id], node.max_w if on else INF)  # type: ignore[arg-type]
-            return
-        if node.id in m.heat_row:
-            b.set_rhs(m.heat_row[node.id], node.heat_limit_w if on else INF)  # type: ignore[arg-type]
-        if b_ is Behaviour.GAIN:
-            # Contracted chain: the element's gain sits in the coefficient of every
-            # link after it, in the rows of the nodes those links feed.
-            for link in self._after(node.id):
-                col = m.link_col[link.index]
-                for row in self._rows.get(link.head, []):
-                    self._coefficient(row, col, on)
-        elif b_ is Behaviour.COMBINE:
-            for row in self._rows_of(node.id, Family.BALANCE):
-                for col in self._in_cols(node.id):
-                    self._coefficient(row, col, on)
-        elif b_ is Behaviour.RANGE:
-            for family in (Family.RANGE_LOW, Family.RANGE_HIGH):
-                for row in self._rows_of(node.id, family):
-                    for col in self._in_cols(node.id):
-                        self._coefficient(row, col, on)
-        elif b_ is Behaviour.SPLIT:
-            for row in self._rows_of(node.id, Family.SHARE_OUT):
-                self._coefficient(row, m.share_col[(node.id, m.row_info[row].port)], on)
+        Derived, not re-coded: the rows of every node the outage touches (the
+        failed nodes, and the nodes fed by the contracted chain after a failed
+        GAIN element) as :func:`~beamplan.optimise.lp.node_rows` writes them
+        for the nodes as they stand and for the nodes as
+        :func:`~beamplan.network.behaviour.out_of_service` makes them (with
+        the chain's coefficients as :func:`~beamplan.optimise.lp.chain_coefs`
+        gives them); the edits are where the two differ.
+
+        Examples
+        --------
+        >>> from beamplan.layout.loader import load_layout
+        >>> from beamplan.network.graph import build_network
+        >>> live = LiveModel(build_network(load_layout("layouts/pilot-line.yaml")))
+        >>> entries, rhs = live.outage_edits(["halo-fel"])
+        >>> entries, list(rhs.values())
+        ({}, [0.0])
+        """
+        m, current = self.model, self.model.network.node
+        failed = {i: out_of_service(current[i]) for i in node_ids if current[i].in_use}
+        link_coef: dict[int, float] = {}
+        for node in failed.values():
+            if node.behaviour is Behaviour.GAIN:
+                link_coef.update(chain_coefs(m, node))
+        touched = dict.fromkeys([*failed, *(self.network.links[i].head for i in link_coef)])
+        entries: dict[tuple[int, int], float] = {}
+        rhs: dict[int, float] = {}
+        for node_id in touched:
+            before = node_rows(m, current[node_id])
+            after = node_rows(m, failed.get(node_id, current[node_id]), link_coef)
+            for (family, port), (coefs, low, high) in after.items():
+                row = self._row.get((node_id, family, port))
+                if row is None:
+                    continue  # not written: free before, so free after
+                old, old_low, old_high = before[(family, port)]
+                for col in coefs.keys() | old.keys():
+                    value = coefs.get(col, 0.0)
+                    if value != old.get(col, 0.0):
+                        entries[(row, col)] = value
+                if (low, high) != (old_low, old_high):
+                    rhs[row] = high if m.row_high[row] != INF else low
+        return entries, rhs
+
+    def _apply(self, entries: Mapping[tuple[int, int], float], rhs: Mapping[int, float]) -> None:
+        """Apply an outage's edits, remembering the entries as they were in service."""
+        for key, value in entries.items():
+            if key not in self._built:
+                self._built[key] = self.model.coefficient(*key)
+            self._held[key] = value
+            self.backend.set_coefficient(key[0], key[1], value)
+        for row, value in rhs.items():
+            self.backend.set_rhs(row, value)
+
+    def _restore(self, entries: Mapping[tuple[int, int], float], rhs: Mapping[int, float]
+                 ) -> None:
+        """Undo :meth:`_apply`: the entries and bounds as they are in service."""
+        m = self.model
+        for key in entries:
+            self._held.pop(key, None)
+            self.backend.set_coefficient(key[0], key[1], self._built[key])
+        for row in rhs:
+            self.backend.set_rhs(row, m.row_high[row] if m.row_high[row] != INF
+                                 else m.row_low[row])
 
     def _after(self, node_id: str) -> list[Link]:
         """The links whose power passes a GAIN element: its out-link and the chain after it."""
@@ -154,17 +188,6 @@ class LiveModel:
             if self.network.node[link.head].behaviour is not Behaviour.GAIN:
                 return out
             current = link.head
-
-    def _coefficient(self, row: int, col: int, on: bool) -> None:
-        """Zero a matrix entry for an outage, or put the built value back."""
-        key = (row, col)
-        if key not in self._built:
-            self._built[key] = self.model.coefficient(row, col)
-        if on:
-            self._off.discard(key)
-        else:
-            self._off.add(key)
-        self.backend.set_coefficient(row, col, self._built[key] if on else 0.0)
 
     def _cut_off(self, failed: set[str]) -> set[str]:
         """Scanners that no source in service reaches once ``failed`` are out.
@@ -218,7 +241,7 @@ class LiveModel:
                 for col, value in terms.items():
                     key = (row, col)
                     self._built[key] = value  # the entry while in service
-                    if key not in self._off:
+                    if key not in self._held:
                         self.backend.set_coefficient(row, col, value)
         for link in self.network.in_links[switch_id]:
             m.switch_coef[(switch_id, link.index)] = balance[m.link_col[link.index]]
@@ -285,9 +308,18 @@ class LiveModel:
         originals = [self.network.node[i] for i in ids]
         failed = {n.id: out_of_service(n) for n in originals}
         case_network = self._with_nodes(failed)
+        key = tuple(ids)
+        if len(ids) != 1 or self.model.network is not self.network:  # pairs, switches moved
+            entries, rhs = self.outage_edits(ids)
+        elif key in self._edits:
+            entries, rhs = self._edits[key]
+        else:
+            entries, rhs = self._edits[key] = self.outage_edits(ids)
+        self._apply(entries, rhs)
         for node in originals:
             if node.in_use:
-                self._set_service(node, False)
+                if node.is_scanner:
+                    self.model.out_of_service.add(node.id)
                 if node.behaviour is Behaviour.GAIN:
                     self._dead.update(link.index for link in self._after(node.id))
         self.model.network = case_network
@@ -300,6 +332,5 @@ class LiveModel:
             self.model.unreachable = set()
             self._dead = set()
             self._failed = set()
-            for node in originals:
-                if node.in_use:
-                    self._set_service(node, True)
+            self._restore(entries, rhs)
+            self.model.out_of_service.difference_update(ids)

@@ -17,246 +17,17 @@ fallback) is built from the same rows only when asked for.
 
 from __future__ import annotations
 
-import contextlib
-import gc
-from collections.abc import Iterator
-from dataclasses import dataclass, field
-from typing import Any
-
-import numpy as np
+from collections import ChainMap
+from collections.abc import Mapping
 
 from beamplan.network.behaviour import Behaviour, Node
 from beamplan.network.graph import Network
+from beamplan.optimise.lpmodel import INF, Coefs, LpModel, Row, gc_paused
+from beamplan.optimise.lpmodel import plus as _plus
 from beamplan.vocabulary import Family
 
-__all__ = ["Coefs", "LpModel", "Row", "build_lp", "gc_paused", "switch_terms"]
-
-INF = float("inf")
-Coefs = dict[int, float]  # a linear expression: column -> coefficient
-
-
-@dataclass(frozen=True)
-class Row:
-    """What one constraint means, for reports and explanations.
-
-    ``family`` is one of ``balance``, ``range-low``, ``range-high``,
-    ``share-sum``, ``share-low``, ``share-high``, ``share-out``, ``heat``,
-    ``source``, ``available``, ``demand``, ``max-power`` (max_power or the
-    useful ceiling, whichever is lower).
-    """
-
-    name: str
-    family: Family
-    node: str
-    port: str | None = None
-
-
-def _plus(*terms: tuple[float, Coefs]) -> Coefs:
-    """Σ scale × expression, as one coefficient map."""
-    out: Coefs = {}
-    for scale, coefs in terms:
-        for col, value in coefs.items():
-            out[col] = out.get(col, 0.0) + scale * value
-    return out
-
-
-@dataclass
-class LpModel:
-    """The LP's columns and rows, and the maps from network objects to them.
-
-    Each row reads ``low ≤ Σ coef × column ≤ high`` with one side infinite,
-    or ``low == high`` for an equality; its ``sense`` is +1 (≥), −1 (≤) or 0
-    (=), as pulp numbers them.
-    """
-
-    network: Network
-    col_name: list[str] = field(default_factory=list)
-    col_low: list[float] = field(default_factory=list)
-    col_high: list[float] = field(default_factory=list)
-    row_coefs: list[Coefs] = field(default_factory=list)
-    row_low: list[float] = field(default_factory=list)
-    row_high: list[float] = field(default_factory=list)
-    row_info: list[Row] = field(default_factory=list)
-    link_col: dict[int, int] = field(default_factory=dict)
-    link_coef: dict[int, float] = field(default_factory=dict)
-    source_col: dict[str, int] = field(default_factory=dict)
-    share_col: dict[tuple[str, str | None], int] = field(default_factory=dict)
-    shortfall_col: dict[str, int] = field(default_factory=dict)
-    factor_col: int = -1
-    demand_row: dict[str, int] = field(default_factory=dict)
-    heat_row: dict[str, int] = field(default_factory=dict)
-    available_row: dict[str, int] = field(default_factory=dict)
-    max_row: dict[str, int] = field(default_factory=dict)
-    # (switch, input link) -> the input column's coefficient in the switch's balance row
-    switch_coef: dict[tuple[str, int], float] = field(default_factory=dict)
-    out_of_service: set[str] = field(default_factory=set)  # outages applied in place
-    unreachable: set[str] = field(default_factory=set)  # scanners no power can reach
-    _pulp: Any = field(default=None, repr=False)  # (problem, variables, constraints)
-
-    # -- building -------------------------------------------------------------------
-    def add_column(self, name: str, low: float | None = 0.0, high: float | None = None) -> int:
-        """Add a variable; return its column number."""
-        self.col_name.append(name)
-        self.col_low.append(-INF if low is None else low)
-        self.col_high.append(INF if high is None else high)
-        return len(self.col_name) - 1
-
-    def add_row(self, expression: Any, info: Row, low: float = -INF, high: float = INF) -> int:
-        """Add a named constraint ``low ≤ expression ≤ high``; return its row number.
-
-        ``expression`` is a coefficient map (column -> coefficient), or a pulp
-        constraint over :meth:`var` variables (then ``low`` and ``high`` come
-        from it).
-        """
-        if not isinstance(expression, dict):
-            expression, low, high = self._from_pulp(expression)
-        self.row_coefs.append(expression)
-        self.row_low.append(low)
-        self.row_high.append(high)
-        self.row_info.append(info)
-        return len(self.row_info) - 1
-
-    def _from_pulp(self, constraint: Any) -> tuple[Coefs, float, float]:
-        index = {id(var): col for col, var in enumerate(self.columns)}
-        coefs = _plus(*((float(value), {index[id(var)]: 1.0})
-                        for var, value in constraint.items()))
-        rhs = -float(constraint.constant)
-        sense = int(constraint.sense)
-        return coefs, (rhs if sense >= 0 else -INF), (rhs if sense <= 0 else INF)
-
-    # -- reading --------------------------------------------------------------------
-    @property
-    def sense(self) -> list[int]:
-        """Each row's sense: +1 (≥ low), −1 (≤ high), 0 (equality)."""
-        return [0 if lo == hi else (1 if hi == INF else -1)
-                for lo, hi in zip(self.row_low, self.row_high, strict=True)]
-
-    def coefficient(self, row: int, col: int) -> float:
-        """The built matrix entry of a row and a column (0 when absent)."""
-        return self.row_coefs[row].get(col, 0.0)
-
-    def triplets(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """The matrix's non-zero entries: columns, rows, values (in row order)."""
-        cols: list[int] = []
-        rows: list[int] = []
-        values: list[float] = []
-        for r, coefs in enumerate(self.row_coefs):
-            for col, value in coefs.items():
-                if value != 0.0:
-                    cols.append(col)
-                    rows.append(r)
-                    values.append(value)
-        return (np.asarray(cols, dtype=np.int64), np.asarray(rows, dtype=np.int32),
-                np.asarray(values, dtype=float))
-
-    def csc(self, order: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """The matrix column-wise: starts, row indices, values (zeros left out).
-
-        ``order`` lists the model's columns in the order wanted (default: theirs).
-        """
-        cols, rows, values = self.triplets()
-        ncol = len(self.col_name)
-        if order is not None:
-            rank = np.empty(ncol, dtype=np.int64)
-            rank[order] = np.arange(ncol, dtype=np.int64)
-            cols = rank[cols]
-        sort = np.argsort(cols, kind="stable")
-        starts = np.zeros(ncol + 1, dtype=np.int32)
-        np.cumsum(np.bincount(cols, minlength=ncol), out=starts[1:])
-        return starts, rows[sort], values[sort]
-
-    def link_coefs(self, index: int, scale: float = 1.0) -> Coefs:
-        """The power on a link: its column times its coefficient (see _link_columns)."""
-        return {self.link_col[index]: scale * self.link_coef[index]}
-
-    def inflow_coefs(self, node_id: str, scale: float = 1.0) -> Coefs:
-        """The power entering a node, as a coefficient map."""
-        out: Coefs = {}
-        for link in self.network.in_links[node_id]:
-            col = self.link_col[link.index]
-            out[col] = out.get(col, 0.0) + scale * self.link_coef[link.index]
-        return out
-
-    def link_value(self, index: int, columns: Any) -> float:
-        """The power on a link in a solution's column values."""
-        return self.link_coef[index] * float(columns[self.link_col[index]])
-
-    # -- the pulp view, for the CBC fallback and pulp-written extra rows -------------
-    def _pulp_view(self) -> tuple[Any, list[Any], list[Any]]:
-        """The pulp problem, its variables and constraints, extended to the rows added so far."""
-        import pulp
-
-        if self._pulp is None:
-            self._pulp = (pulp.LpProblem("beamplan", pulp.LpMinimize), [], [])
-            self._pulp[0].setObjective(pulp.lpSum([]))
-        problem, variables, constraints = self._pulp
-        for col in range(len(variables), len(self.col_name)):
-            lo, hi = self.col_low[col], self.col_high[col]
-            variables.append(problem.add_variable(self.col_name[col],
-                                                  lowBound=None if lo == -INF else lo,
-                                                  upBound=None if hi == INF else hi))
-        for row in range(len(constraints), len(self.row_info)):
-            lo, hi = self.row_low[row], self.row_high[row]
-            expr = pulp.LpAffineExpression([(variables[c], v)
-                                            for c, v in self.row_coefs[row].items()])
-            name = self.row_info[row].name
-            problem.addConstraint(expr == lo if lo == hi else
-                                  (expr >= lo if hi == INF else expr <= hi), name)
-            constraints.append(problem.get_constraint_by_name(name))
-        return problem, variables, constraints
-
-    @property
-    def problem(self) -> Any:
-        """The same LP as a pulp problem (built on first use)."""
-        return self._pulp_view()[0]
-
-    @property
-    def columns(self) -> list[Any]:
-        """The pulp variables, in column order (built on first use)."""
-        return self._pulp_view()[1]
-
-    @property
-    def rows(self) -> list[Any]:
-        """The pulp constraints, in row order (built on first use)."""
-        return self._pulp_view()[2]
-
-    def var(self, col: int) -> Any:
-        """The pulp variable of a column."""
-        return self.columns[col]
-
-    def link_expr(self, index: int) -> Any:
-        """The power on a link as a pulp expression."""
-        return self.link_coef[index] * self.columns[self.link_col[index]]
-
-    def inflow(self, node_id: str) -> Any:
-        """The power entering a node as a pulp expression."""
-        import pulp
-
-        return pulp.lpSum(self.link_expr(link.index) for link in self.network.in_links[node_id])
-
-
-@contextlib.contextmanager
-def gc_paused() -> Iterator[None]:
-    """Pause the cyclic garbage collector while a plan makes its many small objects.
-
-    Building the LP and the result of a large network makes hundreds of
-    thousands of dicts and records that all stay alive; each automatic
-    collection would walk every live object again, which makes the whole
-    quadratic. Reference counting still frees what dies.
-
-    Examples
-    --------
-    >>> with gc_paused():
-    ...     gc.isenabled()
-    False
-    """
-    was = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if was:
-            gc.enable()
+__all__ = ["Coefs", "LpModel", "Row", "RowKey", "Terms", "build_lp", "chain_coefs", "gc_paused",
+           "node_rows", "switch_terms"]
 
 
 def _tag(index: int) -> str:
@@ -285,49 +56,110 @@ def _link_columns(m: LpModel) -> None:
                 m.link_coef[link.index] = 1.0
 
 
-def _source_columns(m: LpModel) -> None:
-    for i, node in enumerate(m.network.sources):
-        col = m.add_column(f"p{_tag(i)}", 0.0, None)
-        m.source_col[node.id] = col
-        out = m.network.out_link.get((node.id, None))
-        flow = m.link_coefs(out.index) if out is not None else {}
-        m.add_row(_plus((1.0, flow), (-1.0, {col: 1.0})),
-                  Row(f"src{_tag(i)}", Family.SOURCE, node.id), 0.0, 0.0)
-        m.available_row[node.id] = m.add_row({col: 1.0}, Row(f"avl{_tag(i)}", Family.AVAILABLE,
-                                                             node.id), high=node.available_w)
+Terms = tuple[Coefs, float, float]  # a row's coefficients, its low and its high bound
+RowKey = tuple[Family, str | None]  # a row of a node: its family and port
 
 
-def _out(m: LpModel, node: Node, port: str | None) -> Coefs:
-    return m.link_coefs(m.network.out_link[(node.id, port)].index)
+def _inflow(m: LpModel, node_id: str, coef: Mapping[int, float]) -> Coefs:
+    out: Coefs = {}
+    for link in m.network.in_links[node_id]:
+        col = m.link_col[link.index]
+        out[col] = out.get(col, 0.0) + coef[link.index]
+    return out
 
 
-def _element_rows(m: LpModel, i: int, node: Node) -> Coefs:
-    """Balance rows of one element; return its absorbed-power expression."""
-    inflow = m.inflow_coefs(node.id)
-    tag = _tag(i)
-    if node.behaviour is Behaviour.GAIN:  # contracted: out = g × in by construction
-        loss = 1.0 - node.gain_max
-        return {col: loss * value for col, value in inflow.items()}
-    if node.behaviour is Behaviour.RANGE:
-        out = _out(m, node, None)
-        m.add_row(_plus((1.0, out), (-node.gain_min, inflow)),
-                  Row(f"rlo{tag}", Family.RANGE_LOW, node.id), low=0.0)
-        m.add_row(_plus((1.0, out), (-node.gain_max, inflow)),
-                  Row(f"rhi{tag}", Family.RANGE_HIGH, node.id), high=0.0)
-        return _plus((1.0, inflow), (-1.0, out))
-    if node.behaviour is Behaviour.SPLIT:
-        return _splitter_rows(m, tag, node, inflow)
-    if node.behaviour is Behaviour.COMBINE:
-        balance, heat = switch_terms(m, node)
-        for link in m.network.in_links[node.id]:
-            m.switch_coef[(node.id, link.index)] = balance[m.link_col[link.index]]
-        m.add_row(_plus((1.0, _out(m, node, None)), (1.0, balance)),
-                  Row(f"bal{tag}", Family.BALANCE, node.id), 0.0, 0.0)
-        return heat
-    return inflow  # ABSORB: a dump takes everything
+def _outflow(m: LpModel, node: Node, port: str | None, coef: Mapping[int, float]) -> Coefs:
+    index = m.network.out_link[(node.id, port)].index
+    return {m.link_col[index]: coef[index]}
 
 
-def switch_terms(m: LpModel, node: Node, select: str | None = None) -> tuple[Coefs, Coefs]:
+def node_rows(m: LpModel, node: Node, link_coef: Mapping[int, float] | None = None
+              ) -> dict[RowKey, Terms]:
+    """A node's own rows, as the builder writes them: coefficients and bounds.
+
+    Keys are (family, port) in the order the rows are written. A row with
+    both bounds infinite is not written (an element without a heat limit, a
+    scanner out of use has no power cap), so comparing the rows of a node and
+    of :func:`beamplan.network.behaviour.out_of_service` of it gives the
+    edits of an outage. ``link_coef`` overrides link coefficients (the
+    contracted chain after a failed GAIN element, see :func:`chain_coefs`).
+
+    Examples
+    --------
+    >>> from beamplan.layout.loader import load_layout
+    >>> from beamplan.network.behaviour import out_of_service
+    >>> from beamplan.network.graph import build_network
+    >>> model = build_lp(build_network(load_layout("layouts/pilot-line.yaml")))
+    >>> node = model.network.node["halo-fel"]
+    >>> node_rows(model, out_of_service(node))[(Family.AVAILABLE, None)][2]
+    0.0
+    """
+    coef = m.link_coef if link_coef is None else ChainMap(dict(link_coef), m.link_coef)
+    rows: dict[RowKey, Terms] = {}
+    b = node.behaviour
+    if b is Behaviour.SOURCE:
+        col = m.source_col[node.id]
+        link = m.network.out_link.get((node.id, None))
+        flow = {m.link_col[link.index]: coef[link.index]} if link is not None else {}
+        rows[(Family.SOURCE, None)] = (_plus((1.0, flow), (-1.0, {col: 1.0})), 0.0, 0.0)
+        rows[(Family.AVAILABLE, None)] = ({col: 1.0}, -INF, node.available_w)
+        return rows
+    inflow = _inflow(m, node.id, coef)
+    if b is Behaviour.SINK:
+        rows[(Family.DEMAND, None)] = (
+            _plus((1.0, inflow), (1.0, {m.shortfall_col[node.id]: 1.0}),
+                  (-node.need_w, {m.factor_col: 1.0})), 0.0, INF)
+        if node.max_w is not None:
+            rows[(Family.MAX_POWER, None)] = (inflow, -INF, node.max_w if node.in_use else INF)
+        return rows
+    absorbed = inflow  # ABSORB: a dump takes everything
+    if b is Behaviour.GAIN:  # contracted: out = g × in by construction
+        absorbed = {col: (1.0 - node.gain_max) * value for col, value in inflow.items()}
+    elif b is Behaviour.RANGE:
+        out = _outflow(m, node, None, coef)
+        rows[(Family.RANGE_LOW, None)] = (_plus((1.0, out), (-node.gain_min, inflow)), 0.0, INF)
+        rows[(Family.RANGE_HIGH, None)] = (_plus((1.0, out), (-node.gain_max, inflow)), -INF, 0.0)
+        absorbed = _plus((1.0, inflow), (-1.0, out))
+    elif b is Behaviour.SPLIT:
+        absorbed = _splitter_rows(m, node, inflow, coef, rows)
+    elif b is Behaviour.COMBINE:
+        balance, absorbed = switch_terms(m, node, link_coef=coef)
+        rows[(Family.BALANCE, None)] = (_plus((1.0, _outflow(m, node, None, coef)),
+                                              (1.0, balance)), 0.0, 0.0)
+    heat = INF if node.heat_limit_w is None else node.heat_limit_w
+    rows[(Family.HEAT, None)] = (absorbed, -INF, heat)
+    return rows
+
+
+def chain_coefs(m: LpModel, node: Node) -> dict[int, float]:
+    """The coefficients of the links after a GAIN element, its gain as ``node`` says.
+
+    The contracted chain (see _link_columns): its out link and each link
+    after a GAIN element that follows, each g × the one before.
+
+    Examples
+    --------
+    >>> from beamplan.layout.loader import load_layout
+    >>> from beamplan.network.behaviour import out_of_service
+    >>> from beamplan.network.graph import build_network
+    >>> model = build_lp(build_network(load_layout("layouts/pilot-line.yaml")))
+    >>> set(chain_coefs(model, out_of_service(model.network.node["m3"])).values())
+    {0.0}
+    """
+    net = m.network
+    [into] = net.in_links[node.id]
+    coef, out, current = m.link_coef[into.index], {}, node
+    while True:
+        link = net.out_link[(current.id, None)]
+        coef *= current.gain_max
+        out[link.index] = coef
+        current = net.node[link.head]
+        if current.behaviour is not Behaviour.GAIN:
+            return out
+
+
+def switch_terms(m: LpModel, node: Node, select: str | None = None,
+                 link_coef: Mapping[int, float] | None = None) -> tuple[Coefs, Coefs]:
     """A switch's input terms: in its balance row, and in its absorbed (heat) power.
 
     The switch passes gain × the power on the input it selects (``select``,
@@ -348,37 +180,55 @@ def switch_terms(m: LpModel, node: Node, select: str | None = None) -> tuple[Coe
     [False, True]
     """
     chosen = node.select if select is None else select
+    coefs = m.link_coef if link_coef is None else link_coef
     balance: Coefs = {}
     heat: Coefs = {}
     for link in m.network.in_links[node.id]:
-        col, coef = m.link_col[link.index], m.link_coef[link.index]
+        col, coef = m.link_col[link.index], coefs[link.index]
         live = 1.0 if chosen is None or link.tail == chosen else 0.0
         balance[col] = balance.get(col, 0.0) - live * node.gain_max * coef
         heat[col] = heat.get(col, 0.0) + live * (1.0 - node.gain_max) * coef
     return balance, heat
 
 
-def _splitter_rows(m: LpModel, tag: str, node: Node, inflow: Coefs) -> Coefs:
+def _splitter_rows(m: LpModel, node: Node, inflow: Coefs, coef: Mapping[int, float],
+                   rows: dict[RowKey, Terms]) -> Coefs:
     shares: Coefs = {}
     absorbed: Coefs = {}
-    for k, port in enumerate(node.ports):
-        col = m.add_column(f"s{tag}_{k:02d}")
-        m.share_col[(node.id, port.name)] = col
+    for port in node.ports:
+        col = m.share_col[(node.id, port.name)]
         share = {col: 1.0}
         shares[col] = 1.0
         absorbed[col] = 1.0 - port.efficiency
-        ptag = f"{tag}_{k:02d}"
         if port.fraction_min > 0.0:
-            m.add_row(_plus((1.0, share), (-port.fraction_min, inflow)),
-                      Row(f"slo{ptag}", Family.SHARE_LOW, node.id, port.name), low=0.0)
+            rows[(Family.SHARE_LOW, port.name)] = (
+                _plus((1.0, share), (-port.fraction_min, inflow)), 0.0, INF)
         if port.fraction_max < 1.0:
-            m.add_row(_plus((1.0, share), (-port.fraction_max, inflow)),
-                      Row(f"shi{ptag}", Family.SHARE_HIGH, node.id, port.name), high=0.0)
-        m.add_row(_plus((1.0, _out(m, node, port.name)), (-port.efficiency, share)),
-                  Row(f"sout{ptag}", Family.SHARE_OUT, node.id, port.name), 0.0, 0.0)
-    m.add_row(_plus((1.0, shares), (-1.0, inflow)), Row(f"ssum{tag}", Family.SHARE_SUM, node.id),
-              0.0, 0.0)
+            rows[(Family.SHARE_HIGH, port.name)] = (
+                _plus((1.0, share), (-port.fraction_max, inflow)), -INF, 0.0)
+        rows[(Family.SHARE_OUT, port.name)] = (
+            _plus((1.0, _outflow(m, node, port.name, coef)), (-port.efficiency, share)), 0.0, 0.0)
+    rows[(Family.SHARE_SUM, None)] = (_plus((1.0, shares), (-1.0, inflow)), 0.0, 0.0)
     return absorbed
+
+
+_PREFIX = {Family.BALANCE: "bal", Family.RANGE_LOW: "rlo", Family.RANGE_HIGH: "rhi",
+           Family.SHARE_LOW: "slo", Family.SHARE_HIGH: "shi", Family.SHARE_OUT: "sout",
+           Family.SHARE_SUM: "ssum", Family.HEAT: "heat", Family.SOURCE: "src",
+           Family.AVAILABLE: "avl", Family.DEMAND: "dem", Family.MAX_POWER: "cap"}
+_PER_PORT = (Family.SHARE_LOW, Family.SHARE_HIGH, Family.SHARE_OUT)
+
+
+def _write_rows(m: LpModel, tag: str, node: Node, rows: dict[RowKey, Terms]) -> dict[Family, int]:
+    """Add a node's rows (those with a finite bound); return the row of each family."""
+    port_no = {p.name: k for k, p in enumerate(node.ports)}
+    written: dict[Family, int] = {}
+    for (family, port), (coefs, low, high) in rows.items():
+        if low == -INF and high == INF:
+            continue
+        name = _PREFIX[family] + (f"{tag}_{port_no[port]:02d}" if family in _PER_PORT else tag)
+        written[family] = m.add_row(coefs, Row(name, family, node.id, port), low, high)
+    return written
 
 
 _ROWLESS = (Behaviour.GAIN, Behaviour.ABSORB)  # no rows of their own but a heat limit
@@ -393,26 +243,37 @@ def _element_families(m: LpModel) -> None:
         if node.behaviour is Behaviour.GAIN and len(into) == 1:  # the common case, inline
             index = into[0].index
             absorbed = {link_col[index]: (1.0 - node.gain_max) * link_coef[index]}
-        else:
-            absorbed = _element_rows(m, i, node)
-        if node.heat_limit_w is not None:
             m.heat_row[node.id] = m.add_row(absorbed, Row(f"heat{_tag(i)}", Family.HEAT, node.id),
-                                            high=node.heat_limit_w)
+                                            high=node.heat_limit_w)  # type: ignore[arg-type]
+            continue
+        tag = _tag(i)
+        for k, port in enumerate(node.ports if node.behaviour is Behaviour.SPLIT else ()):
+            m.share_col[(node.id, port.name)] = m.add_column(f"s{tag}_{k:02d}")
+        rows = node_rows(m, node)
+        if node.behaviour is Behaviour.COMBINE:
+            balance = rows[(Family.BALANCE, None)][0]
+            for link in in_links[node.id]:
+                m.switch_coef[(node.id, link.index)] = balance[link_col[link.index]]
+        written = _write_rows(m, tag, node, rows)
+        if Family.HEAT in written:
+            m.heat_row[node.id] = written[Family.HEAT]
+
+
+def _source_columns(m: LpModel) -> None:
+    for i, node in enumerate(m.network.sources):
+        m.source_col[node.id] = m.add_column(f"p{_tag(i)}", 0.0, None)
+        written = _write_rows(m, _tag(i), node, node_rows(m, node))
+        m.available_row[node.id] = written[Family.AVAILABLE]
 
 
 def _scanner_families(m: LpModel) -> None:
     m.factor_col = m.add_column("t", 0.0, None)
     for j, node in enumerate(m.network.scanners):
-        tag = _tag(j)
-        inflow = m.inflow_coefs(node.id)
-        short = m.add_column(f"u{tag}", 0.0, 0.0)
-        m.shortfall_col[node.id] = short
-        m.demand_row[node.id] = m.add_row(
-            _plus((1.0, inflow), (1.0, {short: 1.0}), (-node.need_w, {m.factor_col: 1.0})),
-            Row(f"dem{tag}", Family.DEMAND, node.id), low=0.0)
-        if node.max_w is not None and node.in_use:
-            m.max_row[node.id] = m.add_row(inflow, Row(f"cap{tag}", Family.MAX_POWER, node.id),
-                                           high=node.max_w)
+        m.shortfall_col[node.id] = m.add_column(f"u{_tag(j)}", 0.0, 0.0)
+        written = _write_rows(m, _tag(j), node, node_rows(m, node))
+        m.demand_row[node.id] = written[Family.DEMAND]
+        if Family.MAX_POWER in written:
+            m.max_row[node.id] = written[Family.MAX_POWER]
 
 
 def build_lp(network: Network) -> LpModel:
