@@ -126,7 +126,7 @@ def photoabsorption_cross_section(gas: str, wavelength_m: float) -> float:
     Notes
     -----
     Optical theorem for the atomic photoabsorption cross-section,
-    ``σ_a = 2 r_e λ f2`` (X-ray Data Booklet, LBNL, section 1.7; Henke et al.,
+    ``σ_a = 2 r_e λ f2`` (X-ray Data Booklet, section 1.7; Henke et al.,
     *At. Data Nucl. Data Tables* 54 (1993) 181). Molecular binding is ignored
     (independent-atom approximation), as in the tables.
 
