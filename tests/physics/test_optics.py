@@ -63,7 +63,8 @@ def test_si_against_henke_tables() -> None:
     # Henke, Gullikson, Davis, At. Data Nucl. Data Tables 54 (1993) 181 (values in the shared
     # README): Si at 13.5 nm, n ≈ 0.99888 + 0.00183i; δ only to 15% because 13.5 nm (91.8 eV)
     # is just below the Si L edge (99.8 eV), where f1 changes fast. periodictable gives
-    # δ = 0.00100, 11% below the tabulated reference 0.00112: it interpolates f1 linearly between table rows 91.54 eV (f1 = 0.307) and 93.02 eV (f1 = 0.0016).
+    # δ = 0.00100, 11% below the tabulated reference 0.00112: it interpolates f1 linearly
+    # between table rows 91.54 eV (f1 = 0.307) and 93.02 eV (f1 = 0.0016).
     c = optical_constants("Si", None, EUV_M)
     assert c.real == pytest.approx(1 - 0.99888, rel=0.15)
     assert c.imag == pytest.approx(0.00183, rel=0.05)
