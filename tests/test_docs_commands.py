@@ -40,10 +40,6 @@ FENCE = re.compile(r"^\s*(```|~~~)(?P<lang>[\w+-]*)")
 SETUP = re.compile(r"\b(pip|venv|pytest)\b")  # environment set-up, not beamplan commands
 SHORT_WORDS = ("cannot be met", "scanners short", "scanner short", "left short")
 
-# Commands that do not run today and belong to a page another change is rewriting:
-# (file name, start of the command) -> why. Each is a non-strict xfail: see the report.
-KNOWN_BROKEN: dict[tuple[str, str], str] = {}
-
 
 @dataclass(frozen=True)
 class Command:
@@ -123,7 +119,7 @@ def collect() -> tuple[list[Command], list[Snippet], list[str]]:
     for path in DOCS:
         name = path.name
         for lang, start, lines in _blocks(path):
-            if lang in ("python", "py", "pycon") and not any(
+            if lang in ("python", "py") and not any(
                     ln.startswith(">>>") for ln in lines):
                 snippets.append(Snippet(name, start, "\n".join(lines)))
                 continue
@@ -181,16 +177,7 @@ def test_the_docs_show_commands_to_run() -> None:
     assert any(where.startswith("README.md:") for where in SKIPPED)
 
 
-def _marks(command: Command) -> list[pytest.MarkDecorator]:
-    text = " ".join(("beamplan", *command.argv))
-    for (doc, start), why in KNOWN_BROKEN.items():
-        if command.doc == doc and text.startswith(start):
-            return [pytest.mark.xfail(reason=why, strict=False)]
-    return []
-
-
-@pytest.mark.parametrize("command", [pytest.param(c, id=c.id, marks=_marks(c))
-                                     for c in COMMANDS])
+@pytest.mark.parametrize("command", [pytest.param(c, id=c.id) for c in COMMANDS])
 def test_documented_command_runs(command: Command, scratch: Path,
                                  capfd: pytest.CaptureFixture[str]) -> None:
     code = main(list(command.argv))
