@@ -132,6 +132,25 @@ class Network:
             other.__dict__[name] = tuple(changed.get(n.id, n) for n in getattr(self, name))
         return other
 
+    def upstream(self, node_id: str) -> set[str]:
+        """Every node from which power can flow into ``node_id`` (not the node itself).
+
+        Examples
+        --------
+        >>> from beamplan.layout.loader import load_layout
+        >>> net = build_network(load_layout("layouts/pilot-line.yaml"))
+        >>> net.sources[0].id in net.upstream(net.scanners[0].id)
+        True
+        """
+        seen: set[str] = set()
+        stack = [node_id]
+        while stack:
+            for link in self.in_links[stack.pop()]:
+                if link.tail not in seen:
+                    seen.add(link.tail)
+                    stack.append(link.tail)
+        return seen
+
     def path_gain(self, scanner_id: str) -> float:
         """Best product of gains from any source to a scanner (adjustables at their max).
 

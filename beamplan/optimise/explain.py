@@ -170,17 +170,6 @@ def _drawn_sources(model: LpModel, outcome: GoalOutcome, flows: Flows, listed: s
     return out
 
 
-def _ancestors(network: Network, node_id: str) -> set[str]:
-    seen: set[str] = set()
-    stack = [node_id]
-    while stack:
-        for link in network.in_links[stack.pop()]:
-            if link.tail not in seen:
-                seen.add(link.tail)
-                stack.append(link.tail)
-    return seen
-
-
 def _below_outages(network: Network) -> set[str]:
     """Every node downstream of a node out of service (one search for the whole plan)."""
     stack = [n.id for n in network.nodes if not n.in_use]
@@ -250,7 +239,7 @@ def shortfall_limits(model: LpModel, outcome: GoalOutcome, scanner_id: str,
     downstream = cache.get(0)
     if not isinstance(downstream, set):
         downstream = cache[0] = _below_outages(network)
-    ups = _ancestors(network, scanner_id) if scanner_id in downstream \
+    ups = network.upstream(scanner_id) if scanner_id in downstream \
         or outcome.primary == "shortfall" else set()
     reasons = [f"{network.node[u].kind} '{u}' on its path is out of service"
                for u in sorted(ups) if not network.node[u].in_use]

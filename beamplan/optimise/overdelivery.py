@@ -30,17 +30,6 @@ OVER_RTOL = 1e-3  # more than 0.1 % above the need counts as over-delivery
 _TIGHT = 1e-7
 
 
-def _ancestors(network: Network, node_id: str) -> set[str]:
-    seen: set[str] = set()
-    stack = [node_id]
-    while stack:
-        for link in network.in_links[stack.pop()]:
-            if link.tail not in seen:
-                seen.add(link.tail)
-                stack.append(link.tail)
-    return seen
-
-
 def _splitter(node: Node, toward: set[str], network: Network,
               fractions: dict[str, float]) -> list[str]:
     out: list[str] = []
@@ -65,7 +54,7 @@ def _splitter(node: Node, toward: set[str], network: Network,
 
 
 def _path_reasons(network: Network, scanner_id: str, flows: Flows) -> list[str]:
-    ups = _ancestors(network, scanner_id)
+    ups = network.upstream(scanner_id)
     toward = ups | {scanner_id}
     reasons: list[str] = []
     for node in network.nodes:  # topological order: from the source down
