@@ -210,7 +210,7 @@ def scanner_demand(spec: DemandSpec, wavelength_m: float) -> ScannerDemand:
     tool = ScannerTool(**fields)  # type: ignore[arg-type]
     dose, set_by = spec.dose_j_m2, "recipe"
     if spec.critical_area_m2 is not None:
-        from beamplan.physics.photons import absorbed_fraction, stochastic_dose_floor_j_m2
+        from beamplan.physics.shot_noise import absorbed_fraction, stochastic_dose_floor_j_m2
 
         assert spec.resist_absorption_per_m is not None and spec.resist_thickness_m is not None
         assert spec.noise is not None

@@ -274,7 +274,7 @@ def effective_dose(
     """Dose to expose with: the larger of the recipe dose and the stochastic floor.
 
     Method: max(recipe, floor), common practice; the floor comes from
-    :func:`beamplan.physics.photons.stochastic_dose_floor_j_m2` (Poisson shot
+    :func:`beamplan.physics.shot_noise.stochastic_dose_floor_j_m2` (Poisson shot
     noise). A tie is reported as ``"recipe"``.
 
     Parameters

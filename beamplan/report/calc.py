@@ -266,7 +266,7 @@ def demand_document(tool: ScannerTool, recipe_dose_j_m2: float, *,
     (200.8, 'power')
     """
     from beamplan.physics import demand as dm
-    from beamplan.physics.photons import absorbed_fraction, stochastic_dose_floor_j_m2
+    from beamplan.physics.shot_noise import absorbed_fraction, stochastic_dose_floor_j_m2
 
     if (wafers_per_hour is None) == (if_power_w is None):
         raise ValueError("give exactly one of wafers_per_hour and if_power_w")
