@@ -239,7 +239,7 @@ def source_check(spec: SourceSpec, wavelength_m: float) -> str:
     u = spec.undulator
     if u is None:
         return ""
-    from beamplan.physics.undulator import resonance_check
+    from beamplan.physics.resonance import resonance_check
 
     check = resonance_check(wavelength_m, u.energy_ev, u.period_m, k=u.k,
                             peak_field_t=u.peak_field_t, tolerance=u.tolerance,

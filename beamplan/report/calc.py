@@ -330,6 +330,7 @@ def undulator_document(electron_energy_ev: float, period_m: float, *, k: float |
     """
     from beamplan.physics import undulator as un
     from beamplan.physics.photons import photon_energy_ev
+    from beamplan.physics.resonance import resonance_check
 
     gamma = un.lorentz_gamma(electron_energy_ev)
     shortest = un.resonant_wavelength_m(electron_energy_ev, period_m, 0.0, harmonic)
@@ -349,8 +350,8 @@ def undulator_document(electron_energy_ev: float, period_m: float, *, k: float |
     resonant = un.resonant_wavelength_m(electron_energy_ev, period_m, k, harmonic)
     if mode == "check":
         assert check_m is not None
-        c = un.resonance_check(check_m, electron_energy_ev, period_m, k=k, tolerance=tolerance,
-                               harmonic=harmonic, tunable=tunable)
+        c = resonance_check(check_m, electron_energy_ev, period_m, k=k, tolerance=tolerance,
+                            harmonic=harmonic, tunable=tunable)
         need_t = None if c.k_required is None else un.peak_field_for_k_t(c.k_required, period_m)
         result = {"reachable": c.reachable, "lorentz_gamma": gamma, "k": c.k,
                   "peak_field_t": peak_field_t, "resonant_wavelength_m": c.resonant_wavelength_m,
