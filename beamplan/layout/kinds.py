@@ -30,6 +30,7 @@ from beamplan.layout.model import (
 from beamplan.layout.reader import ID_PATTERN, MISSING, MapReader
 from beamplan.layout.spec import SECTIONS, element_keys, quantity
 from beamplan.units import UnitError, parse_quantity
+from beamplan.vocabulary import NodeKind
 
 __all__ = ["KINDS", "read_element"]
 
@@ -327,7 +328,7 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
         r.ctx.error("unknown-kind", f"{r.subject}: unknown kind '{kind}'", r.value_loc("kind"),
                     hint)
         return None
-    common: Common = {"id": element_id, "kind": kind, "heat_limit_w": heat_limit_w,
+    common: Common = {"id": element_id, "kind": NodeKind(kind), "heat_limit_w": heat_limit_w,
                       "part": part, "note": note, "location": r.ctx.positions.key(r.where),
                       "derate": 1.0 if derate is None else derate, "in_use": in_use}
     spec = reader(r, common)

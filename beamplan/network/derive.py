@@ -61,7 +61,7 @@ def mirror_gain(spec: MirrorSpec, wavelength_m: float, s_polarisation: float
     Examples
     --------
     >>> from beamplan.layout.model import CoatingSpec
-    >>> spec = MirrorSpec("m1", "mirror", coating=CoatingSpec("Ru"), grazing_rad=0.0873)
+    >>> spec = MirrorSpec("m1", coating=CoatingSpec("Ru"), grazing_rad=0.0873)
     >>> value, how = mirror_gain(spec, 13.5e-9, 0.0)
     >>> 0.9 < value < 1.0, how.startswith("Ru at 5.00 deg grazing")
     (True, True)
@@ -149,7 +149,7 @@ def drift_transmission(spec: DriftSpec, wavelength_m: float) -> tuple[float, str
     Examples
     --------
     >>> from beamplan.layout.model import GasFillSpec
-    >>> spec = DriftSpec("d1", "drift", fill=GasFillSpec("H2", 2.0, 295.0, 40.0))
+    >>> spec = DriftSpec("d1", fill=GasFillSpec("H2", 2.0, 295.0, 40.0))
     >>> value, how = drift_transmission(spec, 13.5e-9)
     >>> 0.9 < value < 1.0, "Beer–Lambert" in how
     (True, True)
