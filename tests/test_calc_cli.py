@@ -23,10 +23,10 @@ from beamplan.physics.demand import ScannerTool, required_if_power, throughput_a
 from beamplan.physics.gas import gas_transmission
 from beamplan.physics.multilayer import multilayer_peak, multilayer_reflectivity
 from beamplan.physics.optics import mirror_reflectivity
-from beamplan.physics.photons import absorbed_fraction, stochastic_dose_floor_j_m2
+from beamplan.physics.resonance import resonance_check
+from beamplan.physics.shot_noise import absorbed_fraction, stochastic_dose_floor_j_m2
 from beamplan.physics.undulator import (
     k_for_wavelength,
-    resonance_check,
     resonant_wavelength_m,
     undulator_k,
 )

@@ -26,6 +26,7 @@ import beamplan
 from beamplan.cli.main import main
 from beamplan.report import files
 from beamplan.report.document import number
+from beamplan.report.output_paths import TABLES_MARKER
 
 PILOT = "layouts/pilot-line.yaml"
 DEMOS = sorted(p.name for p in pathlib.Path("layouts").glob("*.yaml"))
@@ -51,7 +52,7 @@ def strict_loads(text: str) -> Any:
 
 def _ours(folder: pathlib.Path) -> list[str]:
     return sorted(p.name for p in folder.iterdir() if p.name.startswith(".beamplan-")
-                  and p.name != files.TABLES_MARKER)
+                  and p.name != TABLES_MARKER)
 
 
 def _snapshot(folder: pathlib.Path) -> dict[str, bytes | None]:
@@ -69,7 +70,7 @@ def test_csv_set_interrupted_midway_leaves_the_previous_set(
     tables = tmp_path / "tables"
     assert run(capsys, "plan", PILOT, "--csv", str(tables), "-q")[0] == 0
     before = _snapshot(tables)
-    assert sorted(before) == [files.TABLES_MARKER, *TABLES]
+    assert sorted(before) == [TABLES_MARKER, *TABLES]
     real_write = files._write_all
     calls = []
 
@@ -127,7 +128,7 @@ def test_csv_set_replaces_a_previous_set_but_not_foreign_files(
     assert run(capsys, "cases", PILOT, "--scale", "halo-fel.power=0.5", "--csv", str(tables),
                "-q")[0] == 3  # half the source leaves a scanner short
     # The plan's set is replaced as a whole by the cases set: no plan table is left over.
-    assert sorted(os.listdir(tables)) == [files.TABLES_MARKER, "cases.csv", "scanners.csv"]
+    assert sorted(os.listdir(tables)) == [TABLES_MARKER, "cases.csv", "scanners.csv"]
     mine = tmp_path / "mine"
     mine.mkdir()
     (mine / "notes.txt").write_text("keep me\n")

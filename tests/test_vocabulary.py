@@ -75,3 +75,15 @@ def test_the_command_line_offers_the_vocabulary() -> None:
 
 def test_node_kinds_cover_the_layout_kinds() -> None:
     assert {str(k) for k in NodeKind} == {*KINDS, "source", "scanner"}
+
+
+def test_nodes_and_elements_carry_their_kind_as_a_member() -> None:
+    layout = load_layout("layouts/two-bay.yaml")
+    assert layout.elements and all(type(e.kind) is NodeKind for e in layout.elements)
+    network = build_network(layout)
+    kinds = {n.id: n.kind for n in network.nodes}
+    assert all(type(k) is NodeKind for k in kinds.values())
+    assert {kinds[s.id] for s in layout.sources} == {NodeKind.SOURCE}
+    assert {kinds[s.id] for s in layout.scanners} == {NodeKind.SCANNER}
+    # Written as the plain word (standard library's json), as before the enum.
+    assert json.dumps(sorted(kinds.values())) == json.dumps(sorted(map(str, kinds.values())))

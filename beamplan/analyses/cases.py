@@ -25,6 +25,7 @@ from beamplan.layout.kinds import read_element
 from beamplan.layout.model import DumpSpec, Layout, LinkSpec, SplitterSpec
 from beamplan.layout.reader import Context, MapReader
 from beamplan.layout.yamlpos import Path, Positions, YamlDocument
+from beamplan.vocabulary import NodeKind
 
 __all__ = ["VERBS", "Case", "build_case", "case_diagnostics", "parse_cases"]
 
@@ -201,7 +202,7 @@ def _insert(layout: Layout, change: Change, sid: str, arg: dict[str, Any],
     dumps = []
     for name in rest[1:]:
         dump_id = f"{split_id}-{name}-dump"
-        dumps.append(DumpSpec(dump_id, "dump", location=loc))
+        dumps.append(DumpSpec(dump_id, NodeKind.DUMP, location=loc))
         new.append(LinkSpec(split_id, dump_id, name, loc, loc))
     return relink(layout, link, new, [spec, *dumps], set())
 

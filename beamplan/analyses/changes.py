@@ -40,6 +40,7 @@ from beamplan.layout.model import (
 from beamplan.layout.positions import Positions
 from beamplan.layout.spec import settable
 from beamplan.layout.yamlpos import YamlDocument
+from beamplan.vocabulary import NodeKind
 
 __all__ = ["SETTABLE", "Change", "ChangeError", "apply_change", "command_line_document",
            "switch_inputs"]
@@ -99,7 +100,8 @@ def _drop(layout: Layout, change: Change) -> Layout:
                                   f"take it out of service with 'fail: {sid}'")
             raise _missing(change, layout, sid, "scanner")
         del scanners[sid]
-        elements.append(DumpSpec(sid, "dump", note="dropped scanner", location=change.location))
+        elements.append(DumpSpec(sid, NodeKind.DUMP, note="dropped scanner",
+                                 location=change.location))
     return replace(layout, scanners=tuple(s for s in layout.scanners if s.id in scanners),
                    elements=tuple(elements))
 

@@ -22,7 +22,8 @@ def _ageing(args: argparse.Namespace) -> int:
     if args.plot == STDOUT:
         raise UsageError("--plot writes a picture file; give a file name")
     from beamplan.cli.common import _existing_file
-    from beamplan.layout.ageing import duration_h, parse_ageing
+    from beamplan.layout.ageing import parse_ageing
+    from beamplan.layout.ageing_values import duration_h
     from beamplan.layout.loader import parse_layout
     from beamplan.layout.yamlpos import load_yaml
 

@@ -11,7 +11,8 @@ import sys
 from collections.abc import Iterable
 
 from beamplan.errors import OutputError, UsageError
-from beamplan.report.files import STDOUT, check_outputs, write_atomic
+from beamplan.report.files import write_atomic
+from beamplan.report.output_paths import STDOUT, check_outputs
 
 __all__ = ["STDOUT", "check", "emit"]
 

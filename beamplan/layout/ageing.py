@@ -18,33 +18,31 @@ replacement restore and cost, and when maintenance may happen::
           replace: {downtime: 24 h, cost: 20000}
 
 Every problem is a located one-line :class:`~beamplan.errors.Diagnostic`, read
-with the layout loader's :class:`~beamplan.layout.reader.MapReader`.
+with the layout loader's :class:`~beamplan.layout.reader.MapReader`; the value
+kinds (durations, ageing units, dates, costs) are read in
+:mod:`beamplan.layout.ageing_values`.
 """
 
 from __future__ import annotations
 
 import datetime as dt
-import re
 from dataclasses import dataclass, field, replace
 from typing import Any
 
 from beamplan.errors import Diagnostic, LayoutError, Location, did_you_mean
+from beamplan.layout.ageing_values import (
+    HOURS_PER_YEAR,
+    read_date,
+    read_duration,
+    read_money,
+    read_per,
+    read_window_times,
+)
 from beamplan.layout.reader import MISSING, Context, MapReader
 from beamplan.layout.yamlpos import Path, YamlDocument
 
-__all__ = ["HOURS_PER_MONTH", "HOURS_PER_YEAR", "Action", "AgeingSpec", "Law", "MirrorModel",
-           "duration_h", "parse_ageing"]
+__all__ = ["Action", "AgeingSpec", "Law", "MirrorModel", "parse_ageing"]
 
-HOURS_PER_YEAR = 8766.0  # 365.25 days (common practice)
-HOURS_PER_MONTH = HOURS_PER_YEAR / 12.0
-_DURATION = {"h": 1.0, "hour": 1.0, "hours": 1.0, "d": 24.0, "day": 24.0, "days": 24.0,
-             "week": 168.0, "weeks": 168.0, "month": HOURS_PER_MONTH,
-             "months": HOURS_PER_MONTH, "y": HOURS_PER_YEAR, "year": HOURS_PER_YEAR,
-             "years": HOURS_PER_YEAR}
-_ENERGY = {"J": 1.0, "kJ": 1e3, "MJ": 1e6, "Wh": 3600.0, "kWh": 3.6e6, "MWh": 3.6e9}
-_FLUENCE = {"J/mm2": 1e6, "J/mm^2": 1e6, "J/cm2": 1e4, "J/cm^2": 1e4, "J/m2": 1.0,
-            "J/m^2": 1.0, "kJ/mm2": 1e9, "kJ/mm^2": 1e9, "MJ/mm2": 1e12, "MJ/mm^2": 1e12}
-_QUANTITY = re.compile(r"^\s*([0-9.eE+-]+)\s*(.*?)\s*$")
 LAWS = ("linear", "exponential", "overlayer")
 
 
@@ -133,96 +131,6 @@ class AgeingSpec:
                      if k * self.windows_every_h < end - 1e-9)
 
 
-def _split(value: Any) -> tuple[float, str] | None:
-    if isinstance(value, (int, float)) and not isinstance(value, bool):
-        return float(value), ""
-    match = _QUANTITY.match(str(value))
-    if match is None:
-        return None
-    try:
-        return float(match.group(1)), match.group(2)
-    except ValueError:
-        return None
-
-
-def duration_h(text: str) -> float:
-    """Hours in a duration such as ``500 h``, ``3 months`` or ``5 years``.
-
-    Raises
-    ------
-    ValueError
-        Not a positive duration.
-
-    Examples
-    --------
-    >>> duration_h("2 years"), duration_h("500 h")
-    (17532.0, 500.0)
-    """
-    parts = _split(text)
-    if parts is None or parts[1] not in _DURATION or parts[0] <= 0:
-        raise ValueError(f"{text!r} is not a duration; write e.g. '500 h', '6 months' or "
-                         "'5 years'")
-    return parts[0] * _DURATION[parts[1]]
-
-
-def _duration(r: MapReader, key: str, default: float | None) -> float | None:
-    value = r.raw(key)
-    if value is MISSING:
-        return default
-    parts = _split(value)
-    if parts is None or parts[1] not in _DURATION or parts[0] <= 0:
-        r.ctx.error("bad-unit", f"{r.subject}: '{key}' is {value!r}, expected a duration",
-                    r.value_loc(key), "e.g. '500 h', '3 months' or '5 years'")
-        return None
-    return parts[0] * _DURATION[parts[1]]
-
-
-def _per(r: MapReader) -> tuple[str, float] | None:
-    value = r.raw("per", True, "1000 h")
-    if value is MISSING:
-        return None
-    parts = _split(value)
-    if parts is not None and parts[0] > 0:
-        number, unit = parts
-        if unit in _DURATION:
-            return "hours", number * _DURATION[unit] * 3600.0
-        if unit in _ENERGY:
-            return "energy", number * _ENERGY[unit]
-        if unit in _FLUENCE:
-            return "fluence", number * _FLUENCE[unit]
-    r.ctx.error("bad-unit", f"{r.subject}: 'per' is {value!r}, expected hours of light, "
-                "an absorbed energy or an absorbed energy per area", r.value_loc("per"),
-                "e.g. 'per: 1000 h', 'per: 1 kWh' or 'per: 1 J/mm2'")
-    return None
-
-
-def _date(r: MapReader, key: str) -> dt.date | None:
-    value = r.raw(key)
-    if value is MISSING:
-        return None
-    if isinstance(value, dt.datetime):
-        return value.date()
-    if isinstance(value, dt.date):
-        return value
-    try:
-        return dt.date.fromisoformat(str(value))
-    except ValueError:
-        r.ctx.error("bad-value", f"{r.subject}: '{key}' is {value!r}, expected a date",
-                    r.value_loc(key), "write it as YYYY-MM-DD, e.g. 2027-01-04")
-        return None
-
-
-def _money(r: MapReader, key: str) -> float:
-    value = r.raw(key)
-    if value is MISSING:
-        return 0.0
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or value < 0:
-        r.ctx.error("bad-value", f"{r.subject}: '{key}' is {value!r}, expected a number >= 0 "
-                    "(in the file's currency)", r.value_loc(key), f"e.g. '{key}: 5000'")
-        return 0.0
-    return float(value)
-
-
 def _action(r: MapReader, kind: str) -> Action | None:
     if r.mapping(kind) is None:
         return None
@@ -232,8 +140,8 @@ def _action(r: MapReader, kind: str) -> Action | None:
         restore: float | None = 1.0
     else:
         restore = sub.fraction("restore", default=1.0)
-    hours = _duration(sub, "downtime", 0.0)
-    cost = _money(sub, "cost")
+    hours = read_duration(sub, "downtime", 0.0)
+    cost = read_money(sub, "cost")
     sub.finish()
     return Action(kind, restore or 1.0, hours or 0.0, cost)
 
@@ -284,7 +192,7 @@ def _law(ctx: Context, target: str, data: Any, path: Path) -> Law | None:
     if kind not in LAWS:
         r.ctx.error("bad-value", f"{subject}: unknown law '{kind}'", r.value_loc("law"),
                     did_you_mean(kind, LAWS) or f"the laws are: {', '.join(LAWS)}")
-    per = _per(r)
+    per = read_per(r)
     driver, unit = per if per is not None else ("hours", 3.6e6)
     law = Law(target, kind, driver, unit, where, illustrative=r.flag("illustrative",
                                                                       default=False),
@@ -351,9 +259,9 @@ def parse_ageing(doc: YamlDocument, *, in_layout: bool = False) -> AgeingSpec:
     r = top.sub("ageing", "ageing")
     if not in_layout:
         top.finish()
-    step = _duration(r, "step", 500.0) or 500.0
-    horizon = _duration(r, "horizon", 5 * HOURS_PER_YEAR) or 5 * HOURS_PER_YEAR
-    start = _date(r, "start")
+    step = read_duration(r, "step", 500.0) or 500.0
+    horizon = read_duration(r, "horizon", 5 * HOURS_PER_YEAR) or 5 * HOURS_PER_YEAR
+    start = read_date(r, "start")
     currency = r.text("currency", default="EUR")
     objective = r.text("objective", default="cost")
     if objective not in ("cost", "downtime"):
@@ -363,10 +271,10 @@ def parse_ageing(doc: YamlDocument, *, in_layout: bool = False) -> AgeingSpec:
     at: tuple[float, ...] = ()
     if r.mapping("windows") is not None:
         w = r.sub("windows", "ageing windows")
-        every = _duration(w, "every", None)
+        every = read_duration(w, "every", None)
         at_raw = w.raw("at")
         if at_raw is not MISSING:
-            at = _window_times(w, at_raw, start)
+            at = read_window_times(w, at_raw, start)
         w.finish()
     laws = []
     optics = r.mapping("optics", required=True) or {}
@@ -379,24 +287,3 @@ def parse_ageing(doc: YamlDocument, *, in_layout: bool = False) -> AgeingSpec:
         raise LayoutError(ctx.diagnostics)
     return AgeingSpec(doc.positions.file, tuple(laws), step, horizon, every, at, start,
                       currency, objective, tuple(ctx.diagnostics))
-
-
-def _window_times(w: MapReader, raw: Any, start: dt.date | None) -> tuple[float, ...]:
-    items = raw if isinstance(raw, list) else [raw]
-    out = []
-    for i, item in enumerate(items):
-        if isinstance(item, dt.date):
-            if start is None:
-                w.ctx.error("missing-key", "ageing windows: a window given as a date needs "
-                            "'start:' in the ageing section", w.value_loc("at", i),
-                            "add e.g. 'start: 2027-01-04', or give hours ('4000 h')")
-                continue
-            out.append((item - start).days * 24.0)
-            continue
-        parts = _split(item)
-        if parts is None or parts[1] not in _DURATION or parts[0] <= 0:
-            w.ctx.error("bad-unit", f"ageing windows: 'at' item {item!r} is not a time",
-                        w.value_loc("at", i), "e.g. '4000 h', '6 months' or a date")
-            continue
-        out.append(parts[0] * _DURATION[parts[1]])
-    return tuple(out)

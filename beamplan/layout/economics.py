@@ -8,13 +8,13 @@ the same located one-line errors as a layout.
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass, field
 from typing import Any
 
 from beamplan.errors import Diagnostic, LayoutError, Location, did_you_mean
+from beamplan.layout.econ_values import EconReader
 from beamplan.layout.model import Layout
-from beamplan.layout.reader import MISSING, Context, MapReader
+from beamplan.layout.reader import Context, MapReader
 from beamplan.layout.yamlpos import Path, YamlDocument, load_yaml
 
 __all__ = ["DEFAULT_RELIABILITY", "Economics", "PlasmaOption", "Reliability", "ScannerEconomics",
@@ -131,103 +131,6 @@ class Economics:
         return Reliability(mtbf, mttr)
 
 
-_NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
-_AMOUNT = re.compile(rf"^\s*({_NUMBER})\s*(thousand|million|billion|k|M|bn)?\s*$")
-_SCALE = {None: 1.0, "thousand": 1e3, "k": 1e3, "million": 1e6, "M": 1e6, "billion": 1e9,
-          "bn": 1e9}
-_PRICE = re.compile(rf"^\s*({_NUMBER})\s*(?:per|/)\s*(kWh|MWh|Wh)\s*$")
-_PER_KWH = {"Wh": 1e3, "kWh": 1.0, "MWh": 1e-3}
-_TIME = re.compile(rf"^\s*({_NUMBER})\s*(h|hours?|d|days?|y|yr|years?)?\s*$")
-_HOURS = {"h": 1.0, "hour": 1.0, "hours": 1.0, "d": 24.0, "day": 24.0, "days": 24.0,
-          "y": 8760.0, "yr": 8760.0, "year": 8760.0, "years": 8760.0}
-
-
-class _Reader:
-    """A MapReader with the economics value kinds (amounts, prices, times)."""
-
-    def __init__(self, r: MapReader, defaulted: list[str], prefix: str) -> None:
-        self.r, self.defaulted, self.prefix = r, defaulted, prefix
-
-    def _value(self, key: str, pattern: re.Pattern[str], what: str, example: str
-               ) -> tuple[float, str | None] | None:
-        value = self.r.raw(key)
-        if value is MISSING:
-            self.defaulted.append(f"{self.prefix}{key}")
-            return None
-        if isinstance(value, (int, float)) and not isinstance(value, bool):
-            return float(value), None
-        match = pattern.match(value) if isinstance(value, str) else None
-        if match is None:
-            self.r.ctx.error("bad-value", f"{self.r.subject}: '{key}' is {value!r}, expected "
-                             f"{what}", self.r.value_loc(key), f"write e.g. '{key}: {example}'")
-            return None
-        return float(match.group(1)), match.group(2)
-
-    def _check(self, key: str, number: float, low: float, high: float = float("inf"),
-               strict: bool = False) -> float | None:
-        if number < low or (strict and number <= low) or number > high:
-            bound = f"above {low:g}" if strict else f"at least {low:g}"
-            if high != float("inf"):
-                bound += f" and at most {high:g}"
-            self.r.ctx.error("out-of-range", f"{self.r.subject}: '{key}' is {number:g}, it must "
-                             f"be {bound}", self.r.value_loc(key), "correct the value")
-            return None
-        return number
-
-    def amount(self, key: str, default: float) -> float:
-        got = self._value(key, _AMOUNT, "an amount (a number, or e.g. '400 million')",
-                          "400 million")
-        if got is None:
-            return default
-        checked = self._check(key, got[0] * _SCALE[got[1]], 0.0)
-        return default if checked is None else checked
-
-    def price(self, key: str, default: float) -> float:
-        got = self._value(key, _PRICE, "a price per kWh or per MWh", "0.10 per kWh")
-        if got is None:
-            return default
-        if got[1] is None:
-            self.r.ctx.error("bad-unit", f"{self.r.subject}: '{key}' needs its energy unit",
-                             self.r.value_loc(key), f"write e.g. '{key}: {got[0]:g} per kWh'")
-            return default
-        checked = self._check(key, got[0] * _PER_KWH[got[1]], 0.0)
-        return default if checked is None else checked
-
-    def hours(self, key: str, default: float, unit: str = "h", low: float = 0.0,
-              high: float = float("inf"), strict: bool = True) -> float:
-        got = self._value(key, _TIME, "a time (e.g. '8000 h', '20 years')", f"{default:g} {unit}")
-        if got is None:
-            return default
-        checked = self._check(key, got[0] * _HOURS[got[1] or unit], low, high, strict)
-        return default if checked is None else checked
-
-    def years(self, key: str, default: float) -> float:
-        return self.hours(key, default * 8760.0, "years") / 8760.0
-
-    def share(self, key: str, default: float, strict: bool = False) -> float:
-        if not self.r.has(key):
-            self.r.raw(key)
-            self.defaulted.append(f"{self.prefix}{key}")
-            return default
-        got = self.r.quantity(key, "fraction", minimum=0.0, maximum=1.0, strict_minimum=strict)
-        return default if got is None else got
-
-    def number(self, key: str, default: float, low: float = 0.0) -> float:
-        got = self._value(key, _AMOUNT, "a number", f"{default:g}")
-        if got is None:
-            return default
-        checked = self._check(key, got[0] * _SCALE[got[1]], low, strict=True)
-        return default if checked is None else checked
-
-    def power(self, key: str, default: float) -> float:
-        if not self.r.has(key):
-            self.r.raw(key)
-            self.defaulted.append(f"{self.prefix}{key}")
-            return default
-        got = self.r.quantity(key, "power", minimum=0.0, strict_minimum=True)
-        return default if got is None else got
-
-
 def _entries(ctx: Context, top: MapReader, key: str) -> list[MapReader]:
     if top.mapping(key) is None:
         return []
@@ -241,7 +144,7 @@ def _entries(ctx: Context, top: MapReader, key: str) -> list[MapReader]:
 
 
 def _reliability(ctx: Context, r: MapReader, defaulted: list[str]) -> Reliability | None:
-    reader = _Reader(r, defaulted, "")
+    reader = EconReader(r, defaulted, "")
     mttr = reader.hours("mttr", 0.0, low=0.0, strict=True)
     if r.has("availability"):
         a = reader.share("availability", 1.0, strict=True)
@@ -285,7 +188,7 @@ def parse_economics(doc: YamlDocument, where: Path = ()) -> Economics:
         raise LayoutError(ctx.diagnostics)
     top = MapReader(ctx, data, {k: (*where, k) for k in data}, "economics", where)
     defaulted: list[str] = []
-    rd = _Reader(top, defaulted, "")
+    rd = EconReader(top, defaulted, "")
     top.text("note")
     currency = top.text("currency", default="money units")
     if "currency" not in data:
@@ -297,7 +200,7 @@ def parse_economics(doc: YamlDocument, where: Path = ()) -> Economics:
     passes = rd.number("passes_per_wafer", base.passes_per_wafer)
     sources = []
     for r in _entries(ctx, top, "sources"):
-        sr = _Reader(r, defaulted, f"sources.{r.where[-1]}.")
+        sr = EconReader(r, defaulted, f"sources.{r.where[-1]}.")
         sources.append((str(r.where[-1]), SourceEconomics(
             sr.amount("capital", SHARED_CAPITAL), sr.years("life", 20.0),
             sr.amount("maintenance", SHARED_MAINTENANCE), r.flag("kept_warm", default=False))))
@@ -305,7 +208,7 @@ def parse_economics(doc: YamlDocument, where: Path = ()) -> Economics:
     default_scanner, scanners = ScannerEconomics(), []
     for r in _entries(ctx, top, "scanners"):
         name = str(r.where[-1])
-        sr = _Reader(r, defaulted if name == "default" else [], f"scanners.{name}.")
+        sr = EconReader(r, defaulted if name == "default" else [], f"scanners.{name}.")
         base_s = default_scanner if name != "default" else ScannerEconomics()
         item = ScannerEconomics(sr.share("exposing", base_s.exposing),
                                 sr.number("wph", base_s.wph_at_need))
@@ -317,7 +220,7 @@ def parse_economics(doc: YamlDocument, where: Path = ()) -> Economics:
     plasma = PlasmaOption()
     if top.mapping("plasma") is not None:
         r = top.sub("plasma", "economics 'plasma'")
-        pr = _Reader(r, defaulted, "plasma.")
+        pr = EconReader(r, defaulted, "plasma.")
         plasma = PlasmaOption(pr.power("power", plasma.power_w),
                               pr.power("electrical", plasma.electrical_w),
                               pr.amount("capital", plasma.capital), pr.years("life", 10.0),
@@ -330,7 +233,7 @@ def parse_economics(doc: YamlDocument, where: Path = ()) -> Economics:
     threshold, switching, improvement = base.threshold, base.switching_time_h, base.improvement
     if top.mapping("reliability") is not None:
         rel = top.sub("reliability", "economics 'reliability'")
-        rr = _Reader(rel, defaulted, "reliability.")
+        rr = EconReader(rel, defaulted, "reliability.")
         threshold = rr.share("pair_threshold", base.threshold)
         switching = rr.hours("switching_time", 0.0, strict=False)
         improvement = rr.share("improvement", base.improvement, strict=True)

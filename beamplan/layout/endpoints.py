@@ -17,6 +17,7 @@ from beamplan.layout.model import (
 )
 from beamplan.layout.reader import ID_PATTERN, MISSING, Context, MapReader
 from beamplan.layout.spec import SECTIONS, quantity, tool_keys
+from beamplan.layout.spec_defaults import default_value
 from beamplan.layout.yamlpos import Path
 
 __all__ = ["TOOL_KEYS", "entries", "read_scanners", "read_sources"]
@@ -54,9 +55,11 @@ def _undulator(r: MapReader) -> UndulatorSpec | None:
     period = quantity(u, "undulator", "period")
     k = _plain(u, "k")
     field = quantity(u, "undulator", "field")
-    harmonic = u.integer("harmonic", default=1, minimum=1, maximum=99)
+    harmonic = u.integer("harmonic", default=default_value("undulator", "harmonic", int),
+                         minimum=1, maximum=99)
     tunable = bool(u.raw("tunable") is True)
-    tolerance = quantity(u, "undulator", "tolerance", default=0.01)
+    one_percent = default_value("undulator", "tolerance", float)
+    tolerance = quantity(u, "undulator", "tolerance", default=one_percent)
     u.finish(table=SECTIONS["undulator"])
     if energy is None or period is None:
         return None
@@ -64,7 +67,7 @@ def _undulator(r: MapReader) -> UndulatorSpec | None:
         r.ctx.error("missing-key", f"{r.subject}: the undulator needs exactly one of 'k' and "
                     "'field'", r.value_loc("undulator"), "e.g. 'k: 2.3' or 'field: 0.9 T'")
         return None
-    return UndulatorSpec(energy, period, k, field, harmonic, tunable, tolerance or 0.01)
+    return UndulatorSpec(energy, period, k, field, harmonic, tunable, tolerance or one_percent)
 
 
 def _plain(r: MapReader, key: str) -> float | None:
@@ -102,7 +105,7 @@ def _electrical(r: MapReader, power: float | None) -> tuple[float | None, float]
         return None
     if power is None:
         return None
-    fixed = fixed or 0.0
+    fixed = fixed or default_value("source", "electrical_fixed", float)
     if full is None:
         assert per_watt is not None
         full = fixed + per_watt * power
@@ -127,12 +130,14 @@ def read_sources(ctx: Context, section: dict[str, Any]) -> list[SourceSpec]:
         r = MapReader(ctx, settings, {k: (*path, k) for k in settings}, f"source '{sid}'", path)
         power = r.quantity("power", "power", required=True, minimum=0.0)
         wall = _electrical(r, power)
-        surplus = r.text("surplus", default="turn-down")
+        surplus = r.text("surplus", default=default_value("source", "surplus", str))
         if surplus not in SURPLUS_MODES:
             r._bad("surplus", f"'surplus' is {surplus!r}",
                    f"give one of {', '.join(SURPLUS_MODES)}")
-        degree = quantity(r, "source", "polarisation", default=0.0)
-        angle = quantity(r, "source", "polarisation_angle", default=0.0)
+        degree = quantity(r, "source", "polarisation",
+                          default=default_value("source", "polarisation", float))
+        angle = quantity(r, "source", "polarisation_angle",
+                         default=default_value("source", "polarisation_angle", float))
         undulator = _undulator(r)
         note = r.text("note")
         in_use = r.in_use("a source")
@@ -193,7 +198,8 @@ def _demand(r: MapReader, profile: str | None) -> DemandSpec | None:
         if value is not None:
             tool.append((name, value))
     train = read_multilayer(r, "mirror_multilayer")
-    incidence = quantity(r, "scanner", "mirror_incidence", default=0.0)
+    normal = default_value("scanner", "mirror_incidence", float)
+    incidence = quantity(r, "scanner", "mirror_incidence", default=normal)
     if train is not None and any(name == "mirror_reflectivity" for name, _ in tool):
         r.ctx.error("bad-value", f"{r.subject}: give 'mirror_reflectivity' or "
                     "'mirror_multilayer', not both", r.key_loc("mirror_multilayer"),
@@ -212,7 +218,7 @@ def _demand(r: MapReader, profile: str | None) -> DemandSpec | None:
     if dose is None or wph is None:
         return None
     return DemandSpec(dose, wph, tuple(tool), train_multilayer=train,
-                      train_incidence_rad=incidence or 0.0, critical_area_m2=area,
+                      train_incidence_rad=incidence or normal, critical_area_m2=area,
                       resist_absorption_per_m=alpha, resist_thickness_m=thickness, noise=noise,
                       profile=profile)
 
@@ -234,10 +240,12 @@ def read_scanners(ctx: Context, section: dict[str, Any], profiles: dict[str, Any
         need = r.quantity("power", "power", minimum=0.0, strict_minimum=True)
         demand = _demand(r, profile)
         max_w = quantity(r, "scanner", "max_power")
-        priority = r.integer("priority", default=1, minimum=1, maximum=1000)
+        priority = r.integer("priority", default=default_value("scanner", "priority", int),
+                             minimum=1, maximum=1000)
         note = r.text("note")
         in_use = r.in_use("a scanner")
-        cap_at_useful = r.flag("cap_at_useful", default=True)
+        cap_at_useful = r.flag("cap_at_useful",
+                               default=default_value("scanner", "cap_at_useful", bool))
         r.finish(table=SECTIONS["scanner"])
         if len(ctx.diagnostics) > before and any(d.is_error for d in ctx.diagnostics[before:]):
             continue

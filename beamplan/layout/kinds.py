@@ -29,7 +29,9 @@ from beamplan.layout.model import (
 )
 from beamplan.layout.reader import ID_PATTERN, MISSING, MapReader
 from beamplan.layout.spec import SECTIONS, element_keys, quantity
+from beamplan.layout.spec_defaults import default_range, default_value
 from beamplan.units import UnitError, parse_quantity
+from beamplan.vocabulary import NodeKind
 
 __all__ = ["KINDS", "read_element"]
 
@@ -168,8 +170,9 @@ def _mirror(r: MapReader, common: Common) -> ElementSpec | None:
     grazing = quantity(r, "mirror", "grazing")
     multilayer = read_multilayer(r)
     incidence = quantity(r, "mirror", "incidence")
-    roughness = quantity(r, "mirror", "roughness", default=0.0)
-    plane = quantity(r, "mirror", "plane", default=0.0)
+    roughness = quantity(r, "mirror", "roughness",
+                         default=default_value("mirror", "roughness", float))
+    plane = quantity(r, "mirror", "plane", default=default_value("mirror", "plane", float))
     if len(r.ctx.diagnostics) > before and reflectivity is None:
         return None
     if reflectivity is None:
@@ -199,7 +202,8 @@ def _drift(r: MapReader, common: Common) -> ElementSpec | None:
     length = quantity(r, "drift", "length")
     gas = r.text("gas") or None
     pressure = quantity(r, "drift", "pressure")
-    temperature = quantity(r, "drift", "temperature", default=295.0)
+    room_k = default_value("drift", "temperature", float)
+    temperature = quantity(r, "drift", "temperature", default=room_k)
     fill = None
     if gas is not None or pressure is not None:
         if gas is None or pressure is None or length is None:
@@ -207,7 +211,7 @@ def _drift(r: MapReader, common: Common) -> ElementSpec | None:
                         "'pressure' and 'length'", r.ctx.positions.key(r.where),
                         "e.g. '{kind: drift, length: 40 m, gas: H2, pressure: 2 Pa}'")
             return None
-        fill = GasFillSpec(gas, pressure, temperature or 295.0, length)
+        fill = GasFillSpec(gas, pressure, temperature or room_k, length)
     if transmission is None and fill is None:
         if len(r.ctx.diagnostics) > before:
             return None
@@ -223,7 +227,8 @@ def _dump(r: MapReader, common: Common) -> ElementSpec | None:
 
 
 def _switch(r: MapReader, common: Common) -> ElementSpec | None:
-    efficiency = quantity(r, "switch", "efficiency", default=1.0)
+    efficiency = quantity(r, "switch", "efficiency",
+                          default=default_value("switch", "efficiency", float))
     select = r.text("select") or None
     if efficiency is None:
         return None
@@ -258,8 +263,9 @@ def _splitter(r: MapReader, common: Common) -> ElementSpec | None:
             ok = False
             continue
         out = MapReader(r.ctx, settings, {k: (*path, k) for k in settings}, sub, path)
-        efficiency = quantity(out, "output", "efficiency", default=1.0)
-        span = out.fraction_range("fraction", default=(0.0, 1.0))
+        efficiency = quantity(out, "output", "efficiency",
+                              default=default_value("output", "efficiency", float))
+        span = out.fraction_range("fraction", default=default_range("output", "fraction"))
         out.finish(table=SECTIONS["output"])
         if efficiency is None or span is None:
             ok = False
@@ -314,7 +320,8 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
     r.text("part")
     note = r.text("note")
     heat_limit_w = quantity(r, "element", "heat_limit")
-    derate = quantity(r, "element", "derate", default=1.0)
+    full = default_value("element", "derate", float)
+    derate = quantity(r, "element", "derate", default=full)
     in_use = r.in_use("an element")
     if not kind:
         if not r.ctx.failed:
@@ -327,9 +334,9 @@ def read_element(r: MapReader, element_id: str, part: str | None) -> ElementSpec
         r.ctx.error("unknown-kind", f"{r.subject}: unknown kind '{kind}'", r.value_loc("kind"),
                     hint)
         return None
-    common: Common = {"id": element_id, "kind": kind, "heat_limit_w": heat_limit_w,
+    common: Common = {"id": element_id, "kind": NodeKind(kind), "heat_limit_w": heat_limit_w,
                       "part": part, "note": note, "location": r.ctx.positions.key(r.where),
-                      "derate": 1.0 if derate is None else derate, "in_use": in_use}
+                      "derate": full if derate is None else derate, "in_use": in_use}
     spec = reader(r, common)
     r.finish(table=element_keys(kind))
     return spec

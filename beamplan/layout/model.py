@@ -11,6 +11,7 @@ import functools
 from dataclasses import dataclass, field
 
 from beamplan.errors import Diagnostic, Location
+from beamplan.vocabulary import NodeKind
 
 __all__ = [
     "SURPLUS_MODES",
@@ -87,7 +88,8 @@ class ElementSpec:
     id
         The element's id, unique across the layout.
     kind
-        The element kind (``mirror``, ``splitter``, ...).
+        The element kind (``NodeKind.MIRROR``, ``NodeKind.SPLITTER``, ...); each
+        subclass gives its own kind as the default.
     heat_limit_w
         The most power the element may absorb, or ``None`` for no limit.
     derate
@@ -99,7 +101,7 @@ class ElementSpec:
     """
 
     id: str
-    kind: str = ""
+    kind: NodeKind
     heat_limit_w: float | None = None
     part: str | None = None
     note: str = ""
@@ -166,6 +168,7 @@ class MirrorSpec(ElementSpec):
     the plane of incidence to the lab horizontal (for polarised sources).
     """
 
+    kind: NodeKind = NodeKind.MIRROR
     reflectivity: float | None = None
     coating: CoatingSpec | None = None
     grazing_rad: float | None = None
@@ -199,6 +202,7 @@ class OutputSpec:
 class SplitterSpec(ElementSpec):
     """A splitter with two or more named outputs."""
 
+    kind: NodeKind = NodeKind.SPLITTER
     outputs: tuple[OutputSpec, ...] = ()
 
     @property
@@ -210,6 +214,7 @@ class SplitterSpec(ElementSpec):
 class AttenuatorSpec(ElementSpec):
     """An attenuator with a fixed (min == max) or adjustable transmission."""
 
+    kind: NodeKind = NodeKind.ATTENUATOR
     transmission_min: float = 1.0
     transmission_max: float = 1.0
 
@@ -228,6 +233,7 @@ class GasFillSpec:
 class DriftSpec(ElementSpec):
     """A drift section: a fixed transmission, or a gas fill over a length."""
 
+    kind: NodeKind = NodeKind.DRIFT
     transmission: float | None = None
     fill: GasFillSpec | None = None
     length_m: float | None = None
@@ -236,6 +242,8 @@ class DriftSpec(ElementSpec):
 @dataclass(frozen=True)
 class DumpSpec(ElementSpec):
     """A beam dump: absorbs all it receives (counted as dumped power)."""
+
+    kind: NodeKind = NodeKind.DUMP
 
     @property
     def output_ports(self) -> tuple[str | None, ...]:
@@ -246,6 +254,7 @@ class DumpSpec(ElementSpec):
 class SwitchSpec(ElementSpec):
     """A switch: several inputs, one output; ``select`` fixes the live input."""
 
+    kind: NodeKind = NodeKind.SWITCH
     efficiency: float = 1.0
     select: str | None = None
     select_location: Location | None = field(default=None, compare=False)

@@ -32,6 +32,7 @@ from beamplan.layout.model import (
     SwitchSpec,
 )
 from beamplan.network.derive import drift_transmission, mirror_gain, scanner_demand, source_check
+from beamplan.vocabulary import NodeKind
 
 __all__ = ["Behaviour", "Node", "Optics", "Port", "derated", "element_node", "out_of_service",
            "scanner_node", "source_node"]
@@ -83,7 +84,7 @@ class Node:
     """
 
     id: str
-    kind: str
+    kind: NodeKind
     behaviour: Behaviour
     gain_min: float = 1.0
     gain_max: float = 1.0
@@ -198,9 +199,9 @@ def element_node(spec: ElementSpec, optics: Optics | None = None) -> Node:
 
     Examples
     --------
-    >>> element_node(MirrorSpec("m1", "mirror", reflectivity=0.9)).gain_max
+    >>> element_node(MirrorSpec("m1", reflectivity=0.9)).gain_max
     0.9
-    >>> element_node(AttenuatorSpec("a1", "attenuator", transmission_min=0.2,
+    >>> element_node(AttenuatorSpec("a1", transmission_min=0.2,
     ...                             transmission_max=1.0)).behaviour
     <Behaviour.RANGE: 'range'>
     """
@@ -217,7 +218,7 @@ def derated(node: Node, factor: float) -> Node:
 
     Examples
     --------
-    >>> derated(Node("m1", "mirror", Behaviour.GAIN, 0.9, 0.9), 0.5).gain_max
+    >>> derated(Node("m1", NodeKind.MIRROR, Behaviour.GAIN, 0.9, 0.9), 0.5).gain_max
     0.45
     """
     how = f"{node.provenance}, derated × {factor:g}" if node.provenance else f"derated × {factor:g}"
@@ -241,7 +242,8 @@ def out_of_service(node: Node) -> Node:
 
     Examples
     --------
-    >>> node = out_of_service(Node("m1", "mirror", Behaviour.GAIN, 0.9, 0.9, heat_limit_w=5.0))
+    >>> mirror = Node("m1", NodeKind.MIRROR, Behaviour.GAIN, 0.9, 0.9, heat_limit_w=5.0)
+    >>> node = out_of_service(mirror)
     >>> node.gain_max, node.heat_limit_w, node.in_use
     (0.0, None, False)
     """
@@ -262,7 +264,7 @@ def source_node(spec: SourceSpec, wavelength_m: float = 13.5e-9) -> Node:
     >>> source_node(SourceSpec("fel", 1e4)).available_w
     10000.0
     """
-    node = Node(id=spec.id, kind="source", behaviour=Behaviour.SOURCE,
+    node = Node(id=spec.id, kind=NodeKind.SOURCE, behaviour=Behaviour.SOURCE,
                 available_w=spec.power_w, electrical_w=spec.electrical_w,
                 electrical_fixed_w=spec.electrical_fixed_w, surplus=spec.surplus,
                 provenance=source_check(spec, wavelength_m), location=spec.location)
@@ -300,7 +302,7 @@ def scanner_node(spec: ScannerSpec, wavelength_m: float = 13.5e-9) -> Node:
     bound = spec.max_w
     if ceiling is not None and spec.cap_at_useful:
         bound = ceiling if bound is None else min(bound, ceiling)
-    node = Node(id=spec.id, kind="scanner", behaviour=Behaviour.SINK, ports=(),
+    node = Node(id=spec.id, kind=NodeKind.SCANNER, behaviour=Behaviour.SINK, ports=(),
                 need_w=need, max_w=bound, priority=spec.priority,
                 provenance=how, location=spec.location, demand=demand,
                 ceiling_w=ceiling, max_given_w=spec.max_w, cap_at_useful=spec.cap_at_useful)

@@ -61,7 +61,7 @@ def mirror_gain(spec: MirrorSpec, wavelength_m: float, s_polarisation: float
     Examples
     --------
     >>> from beamplan.layout.model import CoatingSpec
-    >>> spec = MirrorSpec("m1", "mirror", coating=CoatingSpec("Ru"), grazing_rad=0.0873)
+    >>> spec = MirrorSpec("m1", coating=CoatingSpec("Ru"), grazing_rad=0.0873)
     >>> value, how = mirror_gain(spec, 13.5e-9, 0.0)
     >>> 0.9 < value < 1.0, how.startswith("Ru at 5.00 deg grazing")
     (True, True)
@@ -149,7 +149,7 @@ def drift_transmission(spec: DriftSpec, wavelength_m: float) -> tuple[float, str
     Examples
     --------
     >>> from beamplan.layout.model import GasFillSpec
-    >>> spec = DriftSpec("d1", "drift", fill=GasFillSpec("H2", 2.0, 295.0, 40.0))
+    >>> spec = DriftSpec("d1", fill=GasFillSpec("H2", 2.0, 295.0, 40.0))
     >>> value, how = drift_transmission(spec, 13.5e-9)
     >>> 0.9 < value < 1.0, "Beer–Lambert" in how
     (True, True)
@@ -210,7 +210,7 @@ def scanner_demand(spec: DemandSpec, wavelength_m: float) -> ScannerDemand:
     tool = ScannerTool(**fields)  # type: ignore[arg-type]
     dose, set_by = spec.dose_j_m2, "recipe"
     if spec.critical_area_m2 is not None:
-        from beamplan.physics.photons import absorbed_fraction, stochastic_dose_floor_j_m2
+        from beamplan.physics.shot_noise import absorbed_fraction, stochastic_dose_floor_j_m2
 
         assert spec.resist_absorption_per_m is not None and spec.resist_thickness_m is not None
         assert spec.noise is not None
@@ -239,7 +239,7 @@ def source_check(spec: SourceSpec, wavelength_m: float) -> str:
     u = spec.undulator
     if u is None:
         return ""
-    from beamplan.physics.undulator import resonance_check
+    from beamplan.physics.resonance import resonance_check
 
     check = resonance_check(wavelength_m, u.energy_ev, u.period_m, k=u.k,
                             peak_field_t=u.peak_field_t, tolerance=u.tolerance,

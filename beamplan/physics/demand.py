@@ -20,6 +20,9 @@ power delivered at IF (it regulates by attenuating), so only ``(1 − m) P_IF`` 
 The need at IF is therefore scaled by ``1 / (1 − m)``, not by ``(1 + m)``; this
 keeps :func:`required_if_power` and :func:`throughput_at_power` exact inverses.
 
+The power-independent part (time per wafer, the stage limit, the useful ceiling)
+is in :mod:`beamplan.physics.stage`, and re-exported here.
+
 SI units throughout: m, s, W, J/m² (1 mJ/cm² = 10 J/m²).
 """
 
@@ -30,6 +33,15 @@ from dataclasses import dataclass
 from typing import Literal
 
 from beamplan.physics.scanner_tool import ScannerTool
+from beamplan.physics.stage import (
+    SECONDS_PER_HOUR,
+    if_to_exposure,
+    require_dose,
+    stage_limit_if_power_w,
+    stage_limited_wph,
+    time_per_wafer_s,
+    useful_ceiling_w,
+)
 
 __all__ = [
     "DemandError",
@@ -50,7 +62,6 @@ __all__ = [
 Limit = Literal["power", "stage"]
 DoseSource = Literal["recipe", "stochastic floor"]
 
-_SECONDS_PER_HOUR = 3600.0
 _AT_CEILING_RTOL = 1e-6  # a power within this of the useful ceiling counts as at it
 _STAGE_SLACK = 1e-9  # relative slack when a target sits exactly on the stage limit
 
@@ -132,124 +143,6 @@ class ThroughputResult:
     limit: Limit
 
 
-def _check_dose(dose_j_m2: float) -> None:
-    if not (dose_j_m2 > 0.0 and math.isfinite(dose_j_m2)):
-        raise ValueError(f"dose_j_m2 must be positive and finite, got {dose_j_m2!r}")
-
-
-def time_per_wafer_s(tool: ScannerTool, scan_speed_m_s: float) -> float:
-    """Time to expose one wafer at a scan speed.
-
-    Method: wafer overhead + N_fields × (field overhead + scan length / v)
-    (common practice, no source).
-
-    Parameters
-    ----------
-    tool : ScannerTool
-        The scanner.
-    scan_speed_m_s : float
-        Scan speed in m/s, > 0.
-
-    Returns
-    -------
-    float
-        Time per wafer in s.
-
-    Examples
-    --------
-    >>> round(time_per_wafer_s(ScannerTool(), 0.8), 4)
-    18.0
-    """
-    if not scan_speed_m_s > 0.0:
-        raise ValueError(f"scan_speed_m_s must be positive, got {scan_speed_m_s!r}")
-    per_field_s = tool.field_overhead_s + tool.scan_length_m / scan_speed_m_s
-    return tool.wafer_overhead_s + tool.fields_per_wafer * per_field_s
-
-
-def stage_limited_wph(tool: ScannerTool) -> float:
-    """Most wafers per hour the tool reaches at any power: the stage at full speed.
-
-    Method: 3600 / time per wafer at the stage's maximum scan speed (common practice).
-
-    Parameters
-    ----------
-    tool : ScannerTool
-        The scanner.
-
-    Returns
-    -------
-    float
-        Stage-limited throughput in wafers per hour.
-
-    Examples
-    --------
-    >>> round(stage_limited_wph(ScannerTool()), 3)
-    200.0
-    """
-    return _SECONDS_PER_HOUR / time_per_wafer_s(tool, tool.stage_max_speed_m_s)
-
-
-def stage_limit_if_power_w(tool: ScannerTool, dose_j_m2: float) -> float:
-    """IF power at which the power-limited scan speed reaches the stage maximum.
-
-    Method: invert v = (1 − m) T P_IF / (D L) at v = v_stage (common practice).
-
-    Parameters
-    ----------
-    tool : ScannerTool
-        The scanner.
-    dose_j_m2 : float
-        Dose at the wafer in J/m², > 0.
-
-    Returns
-    -------
-    float
-        IF power in W; more than this buys no throughput.
-
-    Examples
-    --------
-    >>> round(stage_limit_if_power_w(ScannerTool(), 300.0), 1)
-    487.6
-    """
-    _check_dose(dose_j_m2)
-    wafer_power_w = dose_j_m2 * tool.slit_length_m * tool.stage_max_speed_m_s
-    return wafer_power_w / _if_to_exposure(tool)
-
-
-def useful_ceiling_w(tool: ScannerTool, dose_j_m2: float) -> float:
-    """The useful ceiling: the IF power above which more light buys no throughput.
-
-    Method (common practice, no source; the throughput model of the module docstring):
-    the scan speed ``v = min(v_stage, (1 − m) T P_IF / (D L))`` rises with IF power only
-    until it reaches the stage's maximum, at ``P_IF = D L v_stage / ((1 − m) T)``; above
-    it the stage, not the light, sets the wafer rate. The planner bounds the scanner by it.
-
-    Parameters
-    ----------
-    tool : ScannerTool
-        The scanner.
-    dose_j_m2 : float
-        Dose at the wafer in J/m², > 0 (the dose used, after any stochastic floor).
-
-    Returns
-    -------
-    float
-        The ceiling in W at IF.
-
-    Examples
-    --------
-    >>> round(useful_ceiling_w(ScannerTool(), 300.0), 1)  # 30 mJ/cm², 0.8 m/s stage
-    487.6
-    >>> throughput_at_power(ScannerTool(), 300.0, 487.7).limit
-    'stage'
-    """
-    return stage_limit_if_power_w(tool, dose_j_m2)
-
-
-def _if_to_exposure(tool: ScannerTool) -> float:
-    return (1.0 - tool.dose_control_margin) * tool.transmission_if_to_wafer()
-
-
 def required_if_power(tool: ScannerTool, dose_j_m2: float, wafers_per_hour: float) -> DemandResult:
     """Power needed at IF to expose ``wafers_per_hour`` at ``dose_j_m2``.
 
@@ -290,7 +183,7 @@ def required_if_power(tool: ScannerTool, dose_j_m2: float, wafers_per_hour: floa
     ...     print(round(err.stage_limited_wph, 2))
     200.0
     """
-    _check_dose(dose_j_m2)
+    require_dose(dose_j_m2)
     if not (wafers_per_hour > 0.0 and math.isfinite(wafers_per_hour)):
         raise ValueError(f"wafers_per_hour must be positive and finite, got {wafers_per_hour!r}")
     max_wph = stage_limited_wph(tool)
@@ -302,7 +195,7 @@ def required_if_power(tool: ScannerTool, dose_j_m2: float, wafers_per_hour: floa
             requested_wph=wafers_per_hour,
             stage_limited_wph=max_wph,
         )
-    budget_s = _SECONDS_PER_HOUR / wafers_per_hour
+    budget_s = SECONDS_PER_HOUR / wafers_per_hour
     scan_time_s = (budget_s - tool.wafer_overhead_s) / tool.fields_per_wafer - tool.field_overhead_s
     speed_m_s = tool.scan_length_m / scan_time_s
     limit: Limit = "power"
@@ -311,7 +204,7 @@ def required_if_power(tool: ScannerTool, dose_j_m2: float, wafers_per_hour: floa
         limit = "stage"
     wafer_power_w = dose_j_m2 * tool.slit_length_m * speed_m_s
     return DemandResult(
-        if_power_w=wafer_power_w / _if_to_exposure(tool),
+        if_power_w=wafer_power_w / if_to_exposure(tool),
         wafer_power_w=wafer_power_w,
         scan_speed_m_s=speed_m_s,
         time_per_wafer_s=budget_s,
@@ -350,10 +243,10 @@ def throughput_at_power(tool: ScannerTool, dose_j_m2: float, if_power_w: float) 
     >>> throughput_at_power(ScannerTool(), 300.0, 1000.0).limit
     'stage'
     """
-    _check_dose(dose_j_m2)
+    require_dose(dose_j_m2)
     if not (if_power_w >= 0.0 and math.isfinite(if_power_w)):
         raise ValueError(f"if_power_w must be non-negative and finite, got {if_power_w!r}")
-    wafer_power_w = if_power_w * _if_to_exposure(tool)
+    wafer_power_w = if_power_w * if_to_exposure(tool)
     power_speed_m_s = wafer_power_w / (dose_j_m2 * tool.slit_length_m)
     stage_power_w = stage_limit_if_power_w(tool, dose_j_m2)
     limit: Limit = "power"
@@ -366,7 +259,7 @@ def throughput_at_power(tool: ScannerTool, dose_j_m2: float, if_power_w: float) 
         return ThroughputResult(0.0, 0.0, math.inf, 0.0, stage_power_w, "power")
     wafer_time_s = time_per_wafer_s(tool, speed_m_s)
     return ThroughputResult(
-        wafers_per_hour=_SECONDS_PER_HOUR / wafer_time_s,
+        wafers_per_hour=SECONDS_PER_HOUR / wafer_time_s,
         scan_speed_m_s=speed_m_s,
         time_per_wafer_s=wafer_time_s,
         wafer_power_w=wafer_power_w,
@@ -381,7 +274,7 @@ def effective_dose(
     """Dose to expose with: the larger of the recipe dose and the stochastic floor.
 
     Method: max(recipe, floor), common practice; the floor comes from
-    :func:`beamplan.physics.photons.stochastic_dose_floor_j_m2` (Poisson shot
+    :func:`beamplan.physics.shot_noise.stochastic_dose_floor_j_m2` (Poisson shot
     noise). A tie is reported as ``"recipe"``.
 
     Parameters
@@ -403,7 +296,7 @@ def effective_dose(
     >>> effective_dose(600.0, 324.7)
     (600.0, 'recipe')
     """
-    _check_dose(recipe_dose_j_m2)
+    require_dose(recipe_dose_j_m2)
     if not (stochastic_floor_j_m2 >= 0.0 and math.isfinite(stochastic_floor_j_m2)):
         raise ValueError(
             f"stochastic_floor_j_m2 must be non-negative and finite, got {stochastic_floor_j_m2!r}"

@@ -13,26 +13,34 @@ four-layer period, A. E. Yakshin et al., *Physica B* 283 (2000) 143; about
 0.4 nm at Si-on-Mo and up to 1.8 nm at Mo-on-Si by photoelectron spectroscopy,
 *J. Appl. Phys.* 120 (2016), doi:10.1063/1.4962541). :class:`Interlayers`
 models them as thin compound layers; :data:`MOSI_INTERLAYERS` holds the values
-beamplan's layouts use by default.
+beamplan's layouts use by default. The stack itself (layers, interlayers, input
+checks) is built in :mod:`beamplan.physics.multilayer_stack`; :class:`Interlayers`
+and :data:`MOSI_INTERLAYERS` are re-exported here with the functions that take them.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any, Literal
+from typing import Literal
 
 import numpy as np
 from numpy.typing import NDArray
 
+from beamplan.physics.multilayer_stack import (
+    MOSI_INTERLAYERS,
+    Interlayers,
+    PeriodicStack,
+    check_inputs,
+    polarised_reflectivity,
+    require_all,
+)
 from beamplan.physics.optics import (
-    HENKE_SOURCE,
-    NEVOT_CROCE_SOURCE,
     optical_constants,
     optical_constants_spectrum,
 )
-from beamplan.physics.parratt import PARRATT_SOURCE, parratt_amplitudes
+from beamplan.physics.parratt import parratt_amplitudes
 
 __all__ = [
     "MOSI_INTERLAYERS",
@@ -44,54 +52,6 @@ __all__ = [
     "multilayer_reflectivity",
     "parratt_amplitudes",
 ]
-
-
-def _require(checks: Mapping[str, bool]) -> None:
-    """Raise one ValueError naming every failed check."""
-    bad = [message for message, ok in checks.items() if not ok]
-    if bad:
-        raise ValueError("; ".join(bad))
-
-
-@dataclass(frozen=True)
-class Interlayers:
-    """Interdiffusion layers at the two interfaces of every period of a periodic stack.
-
-    ``absorber_on_spacer_m`` is the layer where the absorber (Mo) was deposited on
-    the spacer (Si), ``spacer_on_absorber_m`` where the spacer was deposited on the
-    absorber. The period and the centre of every interface stay where they are:
-    each interlayer takes half its thickness from each of its two neighbours. A
-    zero thickness leaves that interface sharp (the layer is not added at all).
-
-    Examples
-    --------
-    >>> Interlayers().material, Interlayers().absorber_on_spacer_m
-    ('MoSi2', 1e-09)
-    """
-
-    material: str = "MoSi2"
-    absorber_on_spacer_m: float = 1.0e-9
-    spacer_on_absorber_m: float = 0.5e-9
-    density_g_cm3: float | None = 6.2
-
-    def __post_init__(self) -> None:
-        a, b = self.absorber_on_spacer_m, self.spacer_on_absorber_m
-        rho = self.density_g_cm3
-        _require(
-            {
-                "interlayer thicknesses must be finite and >= 0 m": all(
-                    math.isfinite(v) and v >= 0 for v in (a, b)),
-                "interlayer density must be > 0 g/cm³": rho is None or (
-                    math.isfinite(rho) and rho > 0),
-                "interlayer material must be a formula": bool(self.material.strip()),
-            }
-        )
-
-
-#: MoSi2 interlayers of a sputtered Mo/Si stack: 1.0 nm where Mo grows on Si, 0.5 nm where
-#: Si grows on Mo, at 6.2 g/cm³ (bulk MoSi2 is about 6.24 g/cm³; thicknesses from memory of
-#: TEM studies, inside the published 0.4 nm and 1.8 nm of doi:10.1063/1.4962541).
-MOSI_INTERLAYERS = Interlayers()
 
 
 @dataclass(frozen=True)
@@ -129,109 +89,6 @@ class MultilayerPeak:
     fwhm_rad: float
     scan: str
     method: str
-
-
-def _check(incidence_rad: float, wavelength_m: float, polarisation: float, sigma: float) -> None:
-    _require(
-        {
-            "incidence_rad must be in [0, π/2)": 0.0 <= incidence_rad < math.pi / 2,
-            "wavelength_m must be > 0": math.isfinite(wavelength_m) and wavelength_m > 0,
-            "polarisation must be in [-1, 1]": -1.0 <= polarisation <= 1.0,
-            "roughness_m must be >= 0": math.isfinite(sigma) and sigma >= 0,
-        }
-    )
-
-
-def _mix(polarisation: float, r_s: Any, r_p: Any) -> Any:
-    """``(1 + P)/2 |r_s|² + (1 − P)/2 |r_p|²``."""
-    return 0.5 * (1 + polarisation) * np.abs(r_s) ** 2 + 0.5 * (1 - polarisation) * np.abs(r_p) ** 2
-
-
-@dataclass(frozen=True)
-class _Periodic:
-    """A periodic stack [spacer on absorber] × N, optionally capped, on a substrate."""
-
-    pair: tuple[str, str]
-    period_m: float
-    gamma: float
-    bilayers: int
-    capping: tuple[str, float] | None
-    substrate: str
-    densities: Mapping[str, float] | None
-    interlayers: Interlayers | None = None
-
-    def __post_init__(self) -> None:
-        cap_m = 0.0 if self.capping is None else self.capping[1]
-        ok_n = isinstance(self.bilayers, int) and self.bilayers >= 1
-        _require(
-            {
-                "period_m must be > 0": math.isfinite(self.period_m) and self.period_m > 0,
-                "gamma must be in [0, 1]": 0.0 <= self.gamma <= 1.0,
-                "bilayers must be an int >= 1": ok_n,
-                "capping thickness must be >= 0 m": math.isfinite(cap_m) and cap_m >= 0,
-            }
-        )
-        room = min(self.gamma, 1.0 - self.gamma) * self.period_m
-        if self.interlayers is not None and self.taken_m > room:
-            raise ValueError(
-                f"interlayers of {self.interlayers.absorber_on_spacer_m * 1e9:.3g} nm and "
-                f"{self.interlayers.spacer_on_absorber_m * 1e9:.3g} nm take "
-                f"{self.taken_m * 1e9:.3g} nm from each layer, more than the thinner layer "
-                f"({room * 1e9:.3g} nm) holds")
-
-    @property
-    def taken_m(self) -> float:
-        """Thickness each absorber and spacer layer gives up to its two interlayers."""
-        il = self.interlayers
-        return 0.0 if il is None else 0.5 * (il.absorber_on_spacer_m + il.spacer_on_absorber_m)
-
-    def layers(
-        self, index: Callable[[str, float | None], Any]
-    ) -> tuple[list[Any], list[float], Any]:
-        """Indices (top first), thicknesses and substrate index, from ``index → δ + iβ``."""
-        dens = dict(self.densities or {})
-        cache: dict[str, Any] = {}
-
-        def n_of(formula: str) -> Any:
-            if formula not in cache:
-                c = index(formula, dens.get(formula))
-                cache[formula] = 1.0 - np.real(c) + 1j * np.imag(c)  # n = 1 − δ + iβ
-            return cache[formula]
-
-        n_layers = [n_of(self.capping[0])] if self.capping else []
-        thickness = [float(self.capping[1])] if self.capping else []
-        il = self.interlayers
-        if il is not None and il.density_g_cm3 is not None:
-            dens.setdefault(il.material, il.density_g_cm3)
-        spacer_m = (1.0 - self.gamma) * self.period_m - self.taken_m
-        absorber_m = self.gamma * self.period_m - self.taken_m
-        for i in range(self.bilayers):
-            # From the top: spacer, [spacer-on-absorber], absorber, [absorber-on-spacer].
-            n_layers.append(n_of(self.pair[1]))
-            thickness.append(spacer_m)
-            if il is not None and il.spacer_on_absorber_m > 0:
-                n_layers.append(n_of(il.material))
-                thickness.append(il.spacer_on_absorber_m)
-            n_layers.append(n_of(self.pair[0]))
-            thickness.append(absorber_m)
-            if il is not None and il.absorber_on_spacer_m > 0 and i < self.bilayers - 1:
-                n_layers.append(n_of(il.material))
-                thickness.append(il.absorber_on_spacer_m)
-        return n_layers, thickness, n_of(self.substrate)
-
-    @property
-    def method(self) -> str:
-        il = self.interlayers
-        inter = "" if il is None else (
-            f", {il.material} interlayers {il.absorber_on_spacer_m * 1e9:.3g} nm "
-            f"({self.pair[0]} on {self.pair[1]}) and {il.spacer_on_absorber_m * 1e9:.3g} nm "
-            f"({self.pair[1]} on {self.pair[0]})")
-        return (
-            f"Parratt recursion ({PARRATT_SOURCE}) with Névot–Croce roughness "
-            f"({NEVOT_CROCE_SOURCE}) for [{self.pair[1]}/{self.pair[0]}]×{self.bilayers}, "
-            f"period {self.period_m * 1e9:.4g} nm, Γ = {self.gamma:.3g}{inter}; "
-            f"δ, β: {HENKE_SOURCE}"
-        )
 
 
 def multilayer_reflectivity(
@@ -293,13 +150,14 @@ def multilayer_reflectivity(
     >>> round(multilayer_reflectivity(interlayers=MOSI_INTERLAYERS).reflectivity, 3)
     0.713
     """
-    design = _Periodic(pair, period_m, gamma, bilayers, capping, substrate, densities_g_cm3,
+    design = PeriodicStack(pair, period_m, gamma, bilayers, capping, substrate, densities_g_cm3,
                        interlayers)
-    _check(incidence_rad, wavelength_m, polarisation, roughness_m)
+    check_inputs(incidence_rad, wavelength_m, polarisation, roughness_m)
     stack = design.layers(lambda f, rho: optical_constants(f, rho, wavelength_m))
     r_s, r_p = parratt_amplitudes(*stack, incidence_rad, wavelength_m, roughness_m=roughness_m)
     rs, rp = complex(r_s), complex(r_p)
-    return MultilayerReflectivity(float(_mix(polarisation, rs, rp)), rs, rp, design.method)
+    reflectivity = float(polarised_reflectivity(polarisation, rs, rp))
+    return MultilayerReflectivity(reflectivity, rs, rp, design.method)
 
 
 def _peak_and_width(x: NDArray[np.float64], y: NDArray[np.float64]) -> tuple[float, float, float]:
@@ -381,9 +239,9 @@ def multilayer_peak(
     >>> round(p.peak_reflectivity, 3), round(p.peak_wavelength_m * 1e9, 2), round(p.fwhm_m * 1e9, 2)
     (0.737, 13.49, 0.6)
     """
-    design = _Periodic(pair, period_m, gamma, bilayers, capping, substrate, densities_g_cm3,
+    design = PeriodicStack(pair, period_m, gamma, bilayers, capping, substrate, densities_g_cm3,
                        interlayers)
-    _check(incidence_rad, wavelength_m, polarisation, roughness_m)
+    check_inputs(incidence_rad, wavelength_m, polarisation, roughness_m)
     if scan not in ("wavelength", "angle"):
         raise ValueError(f"scan must be 'wavelength' or 'angle', got {scan!r}")
     if not isinstance(points, int) or points < 5:
@@ -409,7 +267,7 @@ def multilayer_peak(
         lam = np.full_like(theta, wavelength_m)
     stack = design.layers(lambda f, rho: optical_constants_spectrum(f, rho, lam))
     r_s, r_p = parratt_amplitudes(*stack, theta, lam, roughness_m=roughness_m)
-    x_peak, y_peak, fwhm = _peak_and_width(axis, _mix(polarisation, r_s, r_p))
+    x_peak, y_peak, fwhm = _peak_and_width(axis, polarised_reflectivity(polarisation, r_s, r_p))
     if scan == "wavelength":
         return MultilayerPeak(y_peak, x_peak, incidence_rad, fwhm, math.nan, scan, design.method)
     return MultilayerPeak(y_peak, wavelength_m, abs(x_peak), math.nan, fwhm, scan, design.method)
@@ -454,8 +312,8 @@ def bragg_period(
     >>> round(bragg_period() * 1e9, 3)
     6.967
     """
-    _check(incidence_rad, wavelength_m, 0.0, 0.0)
-    _require({"gamma must be in [0, 1]": 0.0 <= gamma <= 1.0,
+    check_inputs(incidence_rad, wavelength_m, 0.0, 0.0)
+    require_all({"gamma must be in [0, 1]": 0.0 <= gamma <= 1.0,
               "order must be an int >= 1": isinstance(order, int) and order >= 1})
     dens = densities_g_cm3 or {}
     delta = (gamma * optical_constants(pair[0], dens.get(pair[0]), wavelength_m).real

@@ -266,7 +266,7 @@ def demand_document(tool: ScannerTool, recipe_dose_j_m2: float, *,
     (200.8, 'power')
     """
     from beamplan.physics import demand as dm
-    from beamplan.physics.photons import absorbed_fraction, stochastic_dose_floor_j_m2
+    from beamplan.physics.shot_noise import absorbed_fraction, stochastic_dose_floor_j_m2
 
     if (wafers_per_hour is None) == (if_power_w is None):
         raise ValueError("give exactly one of wafers_per_hour and if_power_w")
@@ -330,6 +330,7 @@ def undulator_document(electron_energy_ev: float, period_m: float, *, k: float |
     """
     from beamplan.physics import undulator as un
     from beamplan.physics.photons import photon_energy_ev
+    from beamplan.physics.resonance import resonance_check
 
     gamma = un.lorentz_gamma(electron_energy_ev)
     shortest = un.resonant_wavelength_m(electron_energy_ev, period_m, 0.0, harmonic)
@@ -349,8 +350,8 @@ def undulator_document(electron_energy_ev: float, period_m: float, *, k: float |
     resonant = un.resonant_wavelength_m(electron_energy_ev, period_m, k, harmonic)
     if mode == "check":
         assert check_m is not None
-        c = un.resonance_check(check_m, electron_energy_ev, period_m, k=k, tolerance=tolerance,
-                               harmonic=harmonic, tunable=tunable)
+        c = resonance_check(check_m, electron_energy_ev, period_m, k=k, tolerance=tolerance,
+                            harmonic=harmonic, tunable=tunable)
         need_t = None if c.k_required is None else un.peak_field_for_k_t(c.k_required, period_m)
         result = {"reachable": c.reachable, "lorentz_gamma": gamma, "k": c.k,
                   "peak_field_t": peak_field_t, "resonant_wavelength_m": c.resonant_wavelength_m,

@@ -11,6 +11,7 @@ Rules (docs/exit-codes.md, README "Outputs"):
 - A symlink is written through: its target is replaced atomically.
 - A FIFO, a character device or ``/dev/stdout``-like path is written directly.
 - A CSV folder is written as a whole (:func:`write_tables`).
+- What may be written at all is checked first, in :mod:`beamplan.report.output_paths`.
 - Any failure to write raises :class:`~beamplan.errors.OutputError` (exit 5).
 """
 
@@ -18,7 +19,6 @@ from __future__ import annotations
 
 import contextlib
 import os
-import re
 import secrets
 import shutil
 import stat
@@ -26,141 +26,24 @@ import tempfile
 import time
 from collections.abc import Iterable, Iterator
 
-from beamplan.errors import OutputError, UsageError
+from beamplan.errors import OutputError
+from beamplan.report.output_paths import (
+    TABLES_MARKER,
+    check_outputs,
+    is_direct,
+    previous_tables,
+    refuse_inputs,
+)
 
-__all__ = ["STDOUT", "TABLES_MARKER", "check_outputs", "refuse_inputs", "write_atomic",
-           "write_tables"]
-
-STDOUT = "-"
-"""The output name that means standard output, for every output option."""
-
-TABLES_MARKER = ".beamplan-tables"
-"""The file in a CSV folder that lists the tables beamplan wrote there."""
+__all__ = ["write_atomic", "write_tables"]
 
 _PREFIX = ".beamplan-"
 _SUFFIX = ".tmp"
 _STALE_S = 3600.0
-_DIRECT = re.compile(r"^/(?:dev/(?:stdout|stderr|fd/\d+)|proc/(?:self|\d+)/fd/\d+)$")
-
-
-def _same_file(a: str, b: str) -> bool:
-    try:
-        return os.path.samefile(a, b)
-    except OSError:
-        return os.path.realpath(a) == os.path.realpath(b)
 
 
 def _why(exc: OSError) -> str:
     return exc.strerror or str(exc)
-
-
-def refuse_inputs(outputs: Iterable[str | None], inputs: Iterable[str]) -> None:
-    """Refuse, before any work, an output path that names an input file.
-
-    Symlinks are resolved: an output that is a link to an input is refused too.
-
-    Raises
-    ------
-    UsageError
-        An output is one of the inputs.
-
-    Examples
-    --------
-    >>> refuse_inputs(["out.json", None], ["layouts/pilot-line.yaml"])
-    >>> refuse_inputs(["layouts/pilot-line.yaml"], ["layouts/pilot-line.yaml"])
-    Traceback (most recent call last):
-    ...
-    beamplan.errors.UsageError: refusing to write over the input file ...
-    """
-    sources = list(inputs)
-    for path in outputs:
-        if path and path != STDOUT:
-            for source in sources:
-                if os.path.lexists(path) and _same_file(path, source):
-                    raise UsageError(f"refusing to write over the input file {path!r}; "
-                                     "choose another output name")
-
-
-def _inside(folder: str, path: str) -> bool:
-    real_folder = os.path.realpath(folder)
-    real = os.path.realpath(path)
-    return os.path.commonpath([real_folder, real]) == real_folder
-
-
-def check_outputs(files: Iterable[tuple[str, str | None]],
-                  folders: Iterable[tuple[str, str | None]], inputs: Iterable[str]) -> None:
-    """Check every output before any work: refuse what would clash, fail what cannot be written.
-
-    ``files`` and ``folders`` are ``(option, path)`` pairs; a ``None`` path is
-    not asked for. Refused (exit 2): an output naming an input, a CSV folder
-    holding an input or files beamplan did not write, ``-`` for a CSV folder,
-    two outputs to stdout or to the same path, a file output inside a CSV
-    folder, a file output that is a folder. Failed (exit 5): a file output
-    whose folder does not exist.
-
-    Raises
-    ------
-    UsageError
-        A clash between outputs and inputs.
-    OutputError
-        An output's folder does not exist.
-
-    Examples
-    --------
-    >>> check_outputs([("--json", "-"), ("--html", None)], [("--csv", "out")],
-    ...               ["layouts/pilot-line.yaml"])
-    >>> check_outputs([("--json", "-"), ("--html", "-")], [], [])
-    Traceback (most recent call last):
-    ...
-    beamplan.errors.UsageError: --json and --html both write to stdout ('-'); ...
-    >>> check_outputs([], [("--csv", "layouts")], ["layouts/pilot-line.yaml"])
-    Traceback (most recent call last):
-    ...
-    beamplan.errors.UsageError: --csv 'layouts': the input 'layouts/pilot-line.yaml' is ...
-    """
-    sources = list(inputs)
-    wanted_files = [(o, p) for o, p in files if p]
-    wanted_folders = [(o, p) for o, p in folders if p]
-    to_stdout = [o for o, p in wanted_files if p == STDOUT]
-    if len(to_stdout) > 1:
-        raise UsageError(f"{' and '.join(to_stdout)} both write to stdout ('-'); "
-                         "send at most one of them there")
-    seen: dict[str, str] = {}
-    for option, path in wanted_files + wanted_folders:
-        if path == STDOUT:
-            continue
-        real = os.path.realpath(path)
-        if real in seen and not _DIRECT.match(path):
-            raise UsageError(f"{seen[real]} and {option} both name {path!r}; "
-                             "give each output its own name")
-        seen[real] = option
-    for option, path in wanted_folders:
-        if path == STDOUT:
-            raise UsageError(f"{option} -: CSV output is a folder of tables; give a folder "
-                             "name (use --json - for the report on stdout)")
-        for source in sources:
-            if _inside(path, source):
-                raise UsageError(f"{option} {path!r}: the input {source!r} is inside it; "
-                                 "choose another folder for the tables")
-        refuse_inputs([path], sources)
-        if os.path.exists(path) and not os.path.isdir(path):
-            raise UsageError(f"{option} {path!r} is a file, not a folder; "
-                             "give a folder for the tables")
-        if os.path.isdir(path):
-            _previous_tables(path, None)
-    for option, path in wanted_files:
-        if path == STDOUT or _DIRECT.match(path):
-            continue
-        for folder_option, folder in wanted_folders:
-            if _inside(folder, path):
-                raise UsageError(f"{option} {path!r} lies in the {folder_option} folder, which "
-                                 "is replaced as a whole; write it elsewhere")
-        refuse_inputs([path], sources)
-        if os.path.isdir(path):
-            raise UsageError(f"{option} {path!r} is a folder; give a file name")
-        parent = os.path.dirname(os.path.abspath(os.path.realpath(path)))
-        if not os.path.isdir(parent):
-            raise OutputError(f"cannot write {path!r}: the folder {parent!r} does not exist")
 
 
 def _umask() -> int:
@@ -267,7 +150,7 @@ def write_atomic(path: str, text: str | bytes, inputs: Iterable[str] = ()) -> No
     """
     refuse_inputs([path], inputs)
     data = _as_bytes(text)
-    if _DIRECT.match(path):
+    if is_direct(path):
         _write_direct(path, data)
         return
     target = os.path.realpath(path)  # a symlink is written through, at its target
@@ -293,32 +176,6 @@ def write_atomic(path: str, text: str | bytes, inputs: Iterable[str] = ()) -> No
     except OSError as exc:
         raise OutputError(f"cannot write {path!r}: {_why(exc)}") from exc
     _remove_stale(folder)
-
-
-def _previous_tables(folder: str, names: Iterable[str] | None) -> set[str]:
-    """The entries of an existing CSV folder, refused unless they are our tables.
-
-    Ours: the tables its ``.beamplan-tables`` file lists, and ``names`` (the
-    new set; ``None`` for the early check, which takes any ``*.csv`` file).
-    """
-    try:
-        entries = set(os.listdir(folder))
-    except OSError as exc:
-        raise OutputError(f"cannot read the folder {folder!r}: {_why(exc)}") from exc
-    ours = set(names or ()) | {TABLES_MARKER}
-    with contextlib.suppress(OSError), open(os.path.join(folder, TABLES_MARKER),
-                                            encoding="utf-8") as marker:
-        ours |= {line.strip() for line in marker if line.strip()}
-    foreign = sorted(e for e in entries
-                     if (e not in ours and not (names is None and e.endswith(".csv"))) or
-                     not os.path.isfile(os.path.join(folder, e)) or
-                     os.path.islink(os.path.join(folder, e)))
-    if foreign:
-        shown = ", ".join(foreign[:3]) + (f" and {len(foreign) - 3} more" if len(foreign) > 3
-                                          else "")
-        raise UsageError(f"the folder {folder!r} holds files beamplan did not write ({shown}); "
-                         "give an empty or new folder for the tables")
-    return entries
 
 
 def write_tables(folder: str, tables: dict[str, str], inputs: Iterable[str] = ()) -> list[str]:
@@ -351,7 +208,7 @@ def write_tables(folder: str, tables: dict[str, str], inputs: Iterable[str] = ()
     check_outputs([], [("the CSV folder", folder)], sources)
     final = os.path.realpath(folder)
     parent = os.path.dirname(final)
-    previous = _previous_tables(final, tables) if os.path.isdir(final) else None
+    previous = previous_tables(final, tables) if os.path.isdir(final) else None
     try:
         os.makedirs(parent, exist_ok=True)
         new = tempfile.mkdtemp(prefix=_PREFIX, suffix=_SUFFIX, dir=parent)

@@ -19,11 +19,8 @@ from beamplan.physics.demand import (
     throughput_at_power,
     time_per_wafer_s,
 )
-from beamplan.physics.photons import (
-    absorbed_fraction,
-    mj_cm2_to_j_m2,
-    stochastic_dose_floor_j_m2,
-)
+from beamplan.physics.photons import mj_cm2_to_j_m2
+from beamplan.physics.shot_noise import absorbed_fraction, stochastic_dose_floor_j_m2
 
 # The hand-worked tool: every value spelled out, so the test does not lean on defaults.
 HAND_TOOL = ScannerTool(

@@ -12,8 +12,6 @@ import scipy.constants as sc
 
 from beamplan.physics import photons
 from beamplan.physics.photons import (
-    absorbed_fraction,
-    absorbed_photons,
     ev_to_j,
     j_m2_to_mj_cm2,
     j_to_ev,
@@ -23,6 +21,10 @@ from beamplan.physics.photons import (
     photon_energy_j,
     photon_flux_per_watt,
     photons_per_area_m2,
+)
+from beamplan.physics.shot_noise import (
+    absorbed_fraction,
+    absorbed_photons,
     relative_shot_noise,
     stochastic_dose_floor_j_m2,
 )

@@ -10,13 +10,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from beamplan.physics import undulator
+from beamplan.physics.resonance import resonance_check
 from beamplan.physics.undulator import (
     ResonanceError,
     electron_energy_for_wavelength_ev,
     k_for_wavelength,
     lorentz_gamma,
     peak_field_for_k_t,
-    resonance_check,
     resonant_wavelength_m,
     undulator_k,
 )
