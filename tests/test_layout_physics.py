@@ -172,3 +172,13 @@ def test_scanner_train_mirrors_from_a_computed_multilayer() -> None:
             "mirror_multilayer: {pair: Mo/Si}}")
     with pytest.raises(LayoutError, match="not both"):
         network_from_text(text("  m1: {kind: mirror, reflectivity: 0.9}", both))
+
+
+def test_undulator_tolerance_of_zero_is_kept() -> None:
+    # A zero tolerance is a valid value (range minimum 0 in layout/spec.py), not "absent":
+    # it must not fall back to the 1 % default (common practice, no source).
+    undulator = ", undulator: {energy: 100 MeV, period: 2.8 cm, k: 1.0, tolerance: 0 %}"
+    mirror, scanner = "  m1: {kind: mirror, reflectivity: 0.9}", "  s1: {power: 300 W}"
+    layout = layout_from_text(text(mirror, scanner, source=undulator))
+    spec = layout.sources[0].undulator
+    assert spec is not None and spec.tolerance == 0.0

@@ -67,7 +67,8 @@ def _undulator(r: MapReader) -> UndulatorSpec | None:
         r.ctx.error("missing-key", f"{r.subject}: the undulator needs exactly one of 'k' and "
                     "'field'", r.value_loc("undulator"), "e.g. 'k: 2.3' or 'field: 0.9 T'")
         return None
-    return UndulatorSpec(energy, period, k, field, harmonic, tunable, tolerance or one_percent)
+    return UndulatorSpec(energy, period, k, field, harmonic, tunable,
+                         one_percent if tolerance is None else tolerance)
 
 
 def _plain(r: MapReader, key: str) -> float | None:
