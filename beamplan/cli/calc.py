@@ -1,4 +1,4 @@
-"""Stand-alone physics calculators: ``beamplan calc mirror|stack|drift|demand|undulator``.
+"""Stand-alone physics calculators: ``beamplan calc mirror|stack|drift|demand|undulator|beam``.
 
 Options that are quantities take a number with a unit (``5deg``, ``2 Pa``).
 Options marked "scannable" also take a list ``2deg,5deg,10deg`` or a range
@@ -7,8 +7,8 @@ Options marked "scannable" also take a list ``2deg,5deg,10deg`` or a range
 usage error (exit 2) that names the option; physics that says no (a target
 beyond the stage, a wavelength outside the tables) exits 1 with one line.
 ``--json`` prints the JSON document and nothing else. The argument readers are
-in :mod:`beamplan.cli.calc_args`, demand and undulator in
-:mod:`beamplan.cli.calc_tools`. Everything heavy loads only when used.
+in :mod:`beamplan.cli.calc_args`; demand, undulator in :mod:`beamplan.cli.calc_tools`,
+beam in :mod:`beamplan.cli.calc_beam`. Everything heavy loads only when used.
 """
 
 from __future__ import annotations
@@ -323,7 +323,8 @@ def register(sub: Any, *more: Callable[[Any], None]) -> None:
     """
     group = sub.add_parser("calc", help="stand-alone physics calculators",
                            description="Stand-alone calculators for grazing mirrors, multilayer "
-                           "stacks, gas-filled drifts, scanner demand and undulator resonance. "
+                           "stacks, gas-filled drifts, scanner demand, undulator resonance and "
+                           "beam footprints on mirrors. "
                            "Quantities take a number and a unit (5deg, 2Pa, 13.5nm). Exit 0 ok, "
                            "1 when the physics says no, 2 for bad usage.")
     group.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)

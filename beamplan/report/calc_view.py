@@ -108,12 +108,44 @@ _SHOW: dict[str, _Show] = {
     "k_required": _Show("K required", "", _g(1.0, 6), "none (K² < 0)"),
     "peak_field_required_t": _Show("peak field required", "T", _g(1.0, 5), "-"),
     "shortest_wavelength_m": _Show("shortest (K = 0)", "nm", _g(1e9, 6)),
+    **{f"{key}_{plane}_{unit}": _Show(f"{label} {plane}", shown, _g(scale), none)
+       for key, label, unit, shown, scale, none in (
+           ("size", "rms size", "m", "mm", 1e3, "-"),
+           ("divergence", "rms divergence", "rad", "µrad", 1e6, "-"),
+           ("focal", "focal length", "m", "m", 1.0, "flat"),
+           ("divergence_after", "divergence after", "rad", "µrad", 1e6, ""),
+           ("waist_after", "waist after (− virtual)", "m", "m", 1.0, ""),
+           ("waist_size_after", "waist size after", "m", "mm", 1e3, ""))
+       for plane in ("tangential", "sagittal")},
+    "distance_m": _Show("distance", "m", _g()),
+    "footprint_rms_m": _Show("footprint rms", "mm", _MM),
+    "footprint_fwhm_m": _Show("footprint FWHM", "mm", _MM),
+    "accepted_fraction": _Show("accepted", "%", _pct),
+    "clipped_fraction": _Show("clipped", "%", _pct),
+    "power_on_mirror_w": _Show("power on the mirror", "", format_power),
+    "absorbed_w": _Show("absorbed", "", format_power),
+    "reflected_w": _Show("reflected", "", format_power),
+    "peak_incident_w_m2": _Show("peak incident", "W/mm²", _g(1e-6)),
+    "peak_absorbed_w_m2": _Show("peak absorbed", "W/mm²", _g(1e-6)),
+    "thermal_slope_rad": _Show("thermal slope (P-V)", "µrad", _g(1e6)),
+    "thermal_slope_rms_rad": _Show("thermal slope rms", "µrad", _g(1e6)),
+    "thermal_radius_m": _Show("thermal radius", "m", _g(), "infinite"),
 }
 
 _TITLES = {"mirror": "Grazing-incidence mirror · one thick surface",
            "stack": "Periodic multilayer stack",
            "drift": "Gas-filled drift",
-           "demand": "Scanner demand", "undulator": "Undulator resonance"}
+           "demand": "Scanner demand", "undulator": "Undulator resonance",
+           "beam": "Beam on a grazing mirror · footprint, density, thermal slope"}
+#: Calculators whose single point is listed in full (the summary alone says too little).
+_LISTED = {"beam"}
+#: Calculators whose scan table shows only these columns, under these short headings
+#: (the JSON keeps every field): their points hold more than a terminal's width.
+_TABLE_IN = {"beam": {
+    "distance_m": "distance\nm", "grazing_deg": "θ\n°", "size_tangential_m": "σt\nmm",
+    "size_sagittal_m": "σs\nmm", "footprint_rms_m": "footprint\nmm",
+    "accepted_fraction": "accepted\n%", "peak_absorbed_w_m2": "absorbed\nW/mm²",
+    "thermal_slope_rad": "slope\nµrad"}}
 
 
 #: Where a key means something else in one calculator.
@@ -180,25 +212,30 @@ def calc_renderable(document: Mapping[str, Any]) -> Group:
 
     points: list[Mapping[str, Any]] = list(document.get("points", []))
     if len(points) > 1:
-        keys = _columns(points)
+        short = _TABLE_IN.get(name)
+        keys = _columns(points) if short is None else list(short)
         fixed = [k for k in keys if all(q[k] == points[0][k] for q in points)]
-        if fixed:
+        shown = [k for k in fixed if _cell(k, points[0][k], unit=True)]  # "": nothing to say
+        if shown:
             same = " · ".join(f"{_show(k, name).label} {_cell(k, points[0][k], unit=True)}"
-                              for k in fixed)
+                              for k in shown)
             parts.append(Text(f"at every point: {same}"))
         table = Table(box=box.SIMPLE_HEAD, padding=(0, 1))
         varying = [k for k in keys if k not in fixed]
         for key in varying:
             show = _show(key, name)
-            table.add_column(f"{show.label} {show.unit}".strip(), justify="right")
+            heading = f"{show.label} {show.unit}".strip() if short is None else short[key]
+            table.add_column(heading, justify="right")
         for q in points:
             table.add_row(*(_cell(k, q[k], unit=False, calc=name) for k in varying))
         parts.append(table)
-    if "result" in document:
+    listed = points[0] if len(points) == 1 and name in _LISTED else None
+    if "result" in document or listed is not None:
         result = Table(box=None, show_header=False, padding=(0, 1, 0, 2))
         result.add_column(style="bold")
         result.add_column(overflow="fold")
-        for key, value in document["result"].items():
+        rows = document["result"] if listed is None else {k: listed[k] for k in _columns(points)}
+        for key, value in rows.items():
             show = _show(key, name)
             if value is not None or show.none:
                 result.add_row(show.label, _cell(key, value, unit=True, calc=name))
