@@ -43,6 +43,11 @@ BASE: dict[str, tuple[list[str], list[str]]] = {
                 "--critical-area", "--noise"]),
     "undulator": (["--energy", "1GeV", "--period", "2.8cm", "--k", "2.32"],
                   ["--energy", "--period", "--k", "--harmonic", "--check", "--tolerance"]),
+    "beam": (["--size", "100um", "--divergence", "20urad", "--distance", "10m", "--grazing",
+              "2deg", "--power", "1kW", "--reflectivity", "0.8"],
+             ["--size", "--divergence", "--widths", "--distance", "--grazing", "--power",
+              "--reflectivity", "--absorptance", "--wavelength", "--m2", "--mirror-length",
+              "--mirror-width", "--radius", "--focal-length", "--substrate", "--steps"]),
 }
 
 UNITS = ["", "deg", "mrad", "nm", "m", "Pa", "mbar", "K", "degC", "g/cm^3", "W", "kW",
@@ -98,6 +103,10 @@ def test_any_calculator_argument_ends_cleanly(calculator: str, data: st.DataObje
         argv += [option, value]
     if calculator == "demand" and option == "--power":  # --power replaces --wph
         at = argv.index("--wph")
+        del argv[at:at + 2]
+    if calculator == "beam" and option in ("--wavelength", "--absorptance"):  # alternatives
+        other = "--divergence" if option == "--wavelength" else "--reflectivity"
+        at = argv.index(other)
         del argv[at:at + 2]
     argv = ["calc", calculator, *argv, *(["--json"] if as_json else [])]
     code, out, err, elapsed = _run(argv)

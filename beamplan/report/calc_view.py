@@ -127,6 +127,7 @@ _SHOW: dict[str, _Show] = {
     "reflected_w": _Show("reflected", "", format_power),
     "peak_incident_w_m2": _Show("peak incident", "W/mm²", _g(1e-6)),
     "peak_absorbed_w_m2": _Show("peak absorbed", "W/mm²", _g(1e-6)),
+    "thermal_gradient_k_m": _Show("temperature gradient under the peak", "K/mm", _g(1e-3)),
     "thermal_slope_rad": _Show("thermal slope (P-V)", "µrad", _g(1e6)),
     "thermal_slope_rms_rad": _Show("thermal slope rms", "µrad", _g(1e6)),
     "thermal_radius_m": _Show("thermal radius", "m", _g(), "infinite"),
