@@ -7,6 +7,8 @@ calculation or scipy.stats where one is short enough to write down.
 
 from __future__ import annotations
 
+import csv
+import io
 import json
 import math
 from typing import Any
@@ -228,3 +230,26 @@ def test_usage_errors_exit_2(capsys: Capsys) -> None:
     assert code == 2
     code, _, _ = run(capsys, *BASE, "--radius", "10m", "--focal-length", "5m")
     assert code == 2
+
+
+@pytest.mark.parametrize("args", [
+    BASE[1:], ("--size", "100um", "--divergence", "20urad", "--distance", "10m,20m,30m",
+               "--grazing", "1deg,2deg", "--power", "1kW", "--absorptance", "0.2")])
+def test_csv_rows_are_the_json_points(capsys: Capsys, args: tuple[str, ...]) -> None:
+    points = doc_of(capsys, "beam", *args)["points"]
+    code, out, err = run(capsys, "beam", *args, "--csv")
+    assert (code, err) == (0, "")
+    rows = list(csv.DictReader(io.StringIO(out)))
+    assert len(rows) == len(points) and list(rows[0]) == list(points[0])
+    for row, point in zip(rows, points, strict=True):
+        for key, value in point.items():  # floats as their exact shortest text
+            assert row[key] == ("" if value is None else repr(value)), key
+
+
+def test_csv_of_a_result_and_exclusive_with_json(capsys: Capsys) -> None:
+    code, out, _ = run(capsys, "undulator", "--energy", "1GeV", "--period", "2.8cm", "--check",
+                       "13.5nm", "--field", "0.5T", "--csv")
+    (row,) = list(csv.DictReader(io.StringIO(out)))
+    assert code == 1 and row["reachable"] == "false"  # documented: not reachable, exit 1
+    code, out, err = run(capsys, *BASE, "--csv", "--json")
+    assert code == 2 and out == "" and "not allowed with" in err

@@ -14,6 +14,7 @@ a longer run with e.g. ``BEAMPLAN_FUZZ_EXAMPLES=20000 HYPOTHESIS_PROFILE=explore
 from __future__ import annotations
 
 import contextlib
+import csv
 import io
 import json
 import os
@@ -91,9 +92,10 @@ EXAMPLES = int(os.environ.get("BEAMPLAN_FUZZ_EXAMPLES", "300"))
 
 @settings(max_examples=EXAMPLES, suppress_health_check=[HealthCheck.too_slow])
 @given(calculator=st.sampled_from(sorted(BASE)), data=st.data(), value=VALUES,
-       as_json=st.booleans())
+       shape=st.sampled_from(["text", "--json", "--csv"]))
 def test_any_calculator_argument_ends_cleanly(calculator: str, data: st.DataObject, value: str,
-                                               as_json: bool) -> None:
+                                               shape: str) -> None:
+    as_json = shape == "--json"
     base, options = BASE[calculator]
     option = data.draw(st.sampled_from(options), label="option")
     argv = list(base)
@@ -108,7 +110,7 @@ def test_any_calculator_argument_ends_cleanly(calculator: str, data: st.DataObje
         other = "--divergence" if option == "--wavelength" else "--reflectivity"
         at = argv.index(other)
         del argv[at:at + 2]
-    argv = ["calc", calculator, *argv, *(["--json"] if as_json else [])]
+    argv = ["calc", calculator, *argv, *([] if shape == "text" else [shape])]
     code, out, err, elapsed = _run(argv)
     assert code in (0, 1, 2), (argv, code, err[-500:])
     assert "Traceback" not in err and "internal error" not in err, (argv, err[-500:])
@@ -122,5 +124,8 @@ def test_any_calculator_argument_ends_cleanly(calculator: str, data: st.DataObje
     if as_json and out:
         document = json.loads(out, parse_constant=_strict)
         assert document["format"] == "beamplan-calc/2" and document["calculator"] == calculator
+    if shape == "--csv" and out:  # a header, then rows of as many cells
+        rows = list(csv.reader(io.StringIO(out)))
+        assert len(rows) >= 2 and all(len(r) == len(rows[0]) for r in rows), (argv, out)
     if code == 0 and not as_json:
         assert out.endswith("\n") and err == ""

@@ -126,8 +126,10 @@ def run(args: argparse.Namespace, build: Callable[[], dict[str, Any]]) -> int:
             document = build()
     except (ValueError, ArithmeticError, RuntimeWarning) as exc:
         raise PhysicsError(_physics_message(exc) or type(exc).__name__) from exc
-    if args.json:
-        sys.stdout.write(report.calc_json(document))
+    if args.json or getattr(args, "csv", False):
+        from beamplan.report.calc_view import calc_csv
+
+        sys.stdout.write(report.calc_json(document) if args.json else calc_csv(document))
         sys.stdout.flush()
     else:
         from beamplan.cli.common import _console
@@ -293,10 +295,13 @@ class _CalcParser(argparse.ArgumentParser):
 
 
 def leaf(calcs: Any, name: str, help_text: str, description: str, handler: Any) -> Any:
-    """Add one calculator: its parser with ``--json`` (and a hidden ``--debug``)."""
+    """Add one calculator: its parser with ``--json`` or ``--csv`` (and a hidden ``--debug``)."""
     parser = calcs.add_parser(name, help=help_text, description=description)
-    parser.add_argument("--json", action="store_true",
-                        help="print the JSON document on stdout and nothing else")
+    shape = parser.add_mutually_exclusive_group()
+    shape.add_argument("--json", action="store_true",
+                       help="print the JSON document on stdout and nothing else")
+    shape.add_argument("--csv", action="store_true", help="print the points (or the result) "
+                       "as CSV on stdout and nothing else")
     parser.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     parser.set_defaults(handler=handler)
     return parser

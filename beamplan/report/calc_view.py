@@ -1,10 +1,12 @@
-"""Terminal rendering of calculator documents: a header as given, then a table or a line.
+"""Views of calculator documents: the terminal (a header as given, then a table or a
+line) and CSV (the points, or the result, one row each).
 
 The documents come from :mod:`beamplan.report.calc`; rich loads only here.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from typing import TYPE_CHECKING, Any, NamedTuple
 
@@ -13,7 +15,7 @@ from beamplan.units import format_power
 if TYPE_CHECKING:
     from rich.console import Group
 
-__all__ = ["calc_renderable"]
+__all__ = ["calc_csv", "calc_renderable"]
 
 
 class _Show(NamedTuple):
@@ -245,3 +247,37 @@ def calc_renderable(document: Mapping[str, Any]) -> Group:
         parts.append(Text(f"→ {document['summary']}", style="bold"))
     parts.append(Text(f"method: {document['method']}", style="dim"))
     return Group(*parts)
+
+
+def calc_csv(document: Mapping[str, Any]) -> str:
+    """The points of a calculator document (or its result, as one row) as CSV text.
+
+    A header of the field names, then one row per point; numbers as their shortest
+    exact text (the JSON's own values), booleans as ``true``/``false``, null (and a
+    value that is not finite) as empty.
+
+    Examples
+    --------
+    >>> print(calc_csv({"points": [{"length_m": 2.0, "transmission": 0.5, "x": None}]}), end="")
+    length_m,transmission,x
+    2.0,0.5,
+    """
+    import csv
+    import io
+
+    rows: list[Mapping[str, Any]] = list(document.get("points") or [document.get("result", {})])
+    keys = list(rows[0]) if rows else []
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(keys)
+    for row in rows:
+        writer.writerow([_csv_cell(row.get(k)) for k in keys])
+    return buffer.getvalue()
+
+
+def _csv_cell(value: Any) -> Any:
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return ""  # JSON's null
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    return repr(value) if isinstance(value, float) else value
