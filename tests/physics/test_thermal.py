@@ -73,9 +73,10 @@ def test_copper_expansion() -> None:
 
 
 def test_distortion_index_ranking() -> None:
-    # α/k: silicon ~0.017 µm/W, copper ~0.04 µm/W (Paquin's table in the Handbook of
-    # Optics, vol. II, ch. 33, from memory); cryogenic silicon two orders lower, the
-    # reason it is used under high heat loads (Tajiri et al. 2001)
+    # α/k: silicon ~0.017 µm/W, copper ~0.04 µm/W (R. A. Paquin's tables of mirror
+    # materials in the Handbook of Optics, vol. II, from memory); cryogenic silicon two
+    # orders lower, the reason it is used under high heat loads (the commentary on
+    # Tajiri et al., J. Synchrotron Rad. 8 (2001) 1140: α is zero at 125 K)
     si, cu, cryo = (SUBSTRATES[n].distortion_m_w for n in ("silicon", "copper", "silicon-cryo"))
     assert si == pytest.approx(0.017e-6, rel=0.1)
     assert cu == pytest.approx(0.041e-6, rel=0.1)
