@@ -282,7 +282,7 @@ def test_old_calculator_names_say_the_new_one(capsys: Capsys) -> None:
         assert err == f"beamplan: error: 'calc {old}' is now 'calc {new}'; see 'beamplan calc " \
                       f"{new} --help'\n"
     code, _, err = run(capsys, "bogus")  # the retired names are not offered as choices
-    assert code == 2 and "'mirror', 'stack', 'drift', 'demand', 'undulator')" in err
+    assert code == 2 and "'mirror', 'stack', 'drift', 'demand', 'undulator', 'beam')" in err
     assert "'reflect'" not in err
 
 

@@ -14,6 +14,7 @@ a longer run with e.g. ``BEAMPLAN_FUZZ_EXAMPLES=20000 HYPOTHESIS_PROFILE=explore
 from __future__ import annotations
 
 import contextlib
+import csv
 import io
 import json
 import os
@@ -43,6 +44,11 @@ BASE: dict[str, tuple[list[str], list[str]]] = {
                 "--critical-area", "--noise"]),
     "undulator": (["--energy", "1GeV", "--period", "2.8cm", "--k", "2.32"],
                   ["--energy", "--period", "--k", "--harmonic", "--check", "--tolerance"]),
+    "beam": (["--size", "100um", "--divergence", "20urad", "--distance", "10m", "--grazing",
+              "2deg", "--power", "1kW", "--reflectivity", "0.8"],
+             ["--size", "--divergence", "--widths", "--distance", "--grazing", "--power",
+              "--reflectivity", "--absorptance", "--wavelength", "--m2", "--mirror-length",
+              "--mirror-width", "--radius", "--focal-length", "--substrate", "--steps"]),
 }
 
 UNITS = ["", "deg", "mrad", "nm", "m", "Pa", "mbar", "K", "degC", "g/cm^3", "W", "kW",
@@ -86,9 +92,10 @@ EXAMPLES = int(os.environ.get("BEAMPLAN_FUZZ_EXAMPLES", "300"))
 
 @settings(max_examples=EXAMPLES, suppress_health_check=[HealthCheck.too_slow])
 @given(calculator=st.sampled_from(sorted(BASE)), data=st.data(), value=VALUES,
-       as_json=st.booleans())
+       shape=st.sampled_from(["text", "--json", "--csv"]))
 def test_any_calculator_argument_ends_cleanly(calculator: str, data: st.DataObject, value: str,
-                                               as_json: bool) -> None:
+                                               shape: str) -> None:
+    as_json = shape == "--json"
     base, options = BASE[calculator]
     option = data.draw(st.sampled_from(options), label="option")
     argv = list(base)
@@ -99,7 +106,11 @@ def test_any_calculator_argument_ends_cleanly(calculator: str, data: st.DataObje
     if calculator == "demand" and option == "--power":  # --power replaces --wph
         at = argv.index("--wph")
         del argv[at:at + 2]
-    argv = ["calc", calculator, *argv, *(["--json"] if as_json else [])]
+    if calculator == "beam" and option in ("--wavelength", "--absorptance"):  # alternatives
+        other = "--divergence" if option == "--wavelength" else "--reflectivity"
+        at = argv.index(other)
+        del argv[at:at + 2]
+    argv = ["calc", calculator, *argv, *([] if shape == "text" else [shape])]
     code, out, err, elapsed = _run(argv)
     assert code in (0, 1, 2), (argv, code, err[-500:])
     assert "Traceback" not in err and "internal error" not in err, (argv, err[-500:])
@@ -113,5 +124,8 @@ def test_any_calculator_argument_ends_cleanly(calculator: str, data: st.DataObje
     if as_json and out:
         document = json.loads(out, parse_constant=_strict)
         assert document["format"] == "beamplan-calc/2" and document["calculator"] == calculator
+    if shape == "--csv" and out:  # a header, then rows of as many cells
+        rows = list(csv.reader(io.StringIO(out)))
+        assert len(rows) >= 2 and all(len(r) == len(rows[0]) for r in rows), (argv, out)
     if code == 0 and not as_json:
         assert out.endswith("\n") and err == ""

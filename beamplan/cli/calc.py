@@ -1,4 +1,4 @@
-"""Stand-alone physics calculators: ``beamplan calc mirror|stack|drift|demand|undulator``.
+"""Stand-alone physics calculators: ``beamplan calc mirror|stack|drift|demand|undulator|beam``.
 
 Options that are quantities take a number with a unit (``5deg``, ``2 Pa``).
 Options marked "scannable" also take a list ``2deg,5deg,10deg`` or a range
@@ -7,8 +7,8 @@ Options marked "scannable" also take a list ``2deg,5deg,10deg`` or a range
 usage error (exit 2) that names the option; physics that says no (a target
 beyond the stage, a wavelength outside the tables) exits 1 with one line.
 ``--json`` prints the JSON document and nothing else. The argument readers are
-in :mod:`beamplan.cli.calc_args`, demand and undulator in
-:mod:`beamplan.cli.calc_tools`. Everything heavy loads only when used.
+in :mod:`beamplan.cli.calc_args`; demand, undulator in :mod:`beamplan.cli.calc_tools`,
+beam in :mod:`beamplan.cli.calc_beam`. Everything heavy loads only when used.
 """
 
 from __future__ import annotations
@@ -126,8 +126,10 @@ def run(args: argparse.Namespace, build: Callable[[], dict[str, Any]]) -> int:
             document = build()
     except (ValueError, ArithmeticError, RuntimeWarning) as exc:
         raise PhysicsError(_physics_message(exc) or type(exc).__name__) from exc
-    if args.json:
-        sys.stdout.write(report.calc_json(document))
+    if args.json or getattr(args, "csv", False):
+        from beamplan.report.calc_view import calc_csv
+
+        sys.stdout.write(report.calc_json(document) if args.json else calc_csv(document))
         sys.stdout.flush()
     else:
         from beamplan.cli.common import _console
@@ -293,10 +295,13 @@ class _CalcParser(argparse.ArgumentParser):
 
 
 def leaf(calcs: Any, name: str, help_text: str, description: str, handler: Any) -> Any:
-    """Add one calculator: its parser with ``--json`` (and a hidden ``--debug``)."""
+    """Add one calculator: its parser with ``--json`` or ``--csv`` (and a hidden ``--debug``)."""
     parser = calcs.add_parser(name, help=help_text, description=description)
-    parser.add_argument("--json", action="store_true",
-                        help="print the JSON document on stdout and nothing else")
+    shape = parser.add_mutually_exclusive_group()
+    shape.add_argument("--json", action="store_true",
+                       help="print the JSON document on stdout and nothing else")
+    shape.add_argument("--csv", action="store_true", help="print the points (or the result) "
+                       "as CSV on stdout and nothing else")
     parser.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     parser.set_defaults(handler=handler)
     return parser
@@ -323,7 +328,8 @@ def register(sub: Any, *more: Callable[[Any], None]) -> None:
     """
     group = sub.add_parser("calc", help="stand-alone physics calculators",
                            description="Stand-alone calculators for grazing mirrors, multilayer "
-                           "stacks, gas-filled drifts, scanner demand and undulator resonance. "
+                           "stacks, gas-filled drifts, scanner demand, undulator resonance and "
+                           "beam footprints on mirrors. "
                            "Quantities take a number and a unit (5deg, 2Pa, 13.5nm). Exit 0 ok, "
                            "1 when the physics says no, 2 for bad usage.")
     group.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)

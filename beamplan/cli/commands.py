@@ -116,12 +116,12 @@ def register(sub: Any) -> None:
     add_limits_option(plan)
     plan.set_defaults(handler=_plan)
 
-    from beamplan.cli import ageing, analyses, calc, calc_tools, draw, tolerance
+    from beamplan.cli import ageing, analyses, calc, calc_beam, calc_tools, draw, tolerance
 
     ageing.register(sub)
     analyses.register(sub)
     draw.register(sub)
-    calc.register(sub, calc_tools.add_demand, calc_tools.add_undulator)
+    calc.register(sub, calc_tools.add_demand, calc_tools.add_undulator, calc_beam.add_beam)
     tolerance.register(sub)
     from beamplan.cli import cost
 

@@ -1,10 +1,12 @@
-"""Terminal rendering of calculator documents: a header as given, then a table or a line.
+"""Views of calculator documents: the terminal (a header as given, then a table or a
+line) and CSV (the points, or the result, one row each).
 
 The documents come from :mod:`beamplan.report.calc`; rich loads only here.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from typing import TYPE_CHECKING, Any, NamedTuple
 
@@ -13,7 +15,7 @@ from beamplan.units import format_power
 if TYPE_CHECKING:
     from rich.console import Group
 
-__all__ = ["calc_renderable"]
+__all__ = ["calc_csv", "calc_renderable"]
 
 
 class _Show(NamedTuple):
@@ -108,12 +110,45 @@ _SHOW: dict[str, _Show] = {
     "k_required": _Show("K required", "", _g(1.0, 6), "none (K² < 0)"),
     "peak_field_required_t": _Show("peak field required", "T", _g(1.0, 5), "-"),
     "shortest_wavelength_m": _Show("shortest (K = 0)", "nm", _g(1e9, 6)),
+    **{f"{key}_{plane}_{unit}": _Show(f"{label} {plane}", shown, _g(scale), none)
+       for key, label, unit, shown, scale, none in (
+           ("size", "rms size", "m", "mm", 1e3, "-"),
+           ("divergence", "rms divergence", "rad", "µrad", 1e6, "-"),
+           ("focal", "focal length", "m", "m", 1.0, "flat"),
+           ("divergence_after", "divergence after", "rad", "µrad", 1e6, ""),
+           ("waist_after", "waist after (− virtual)", "m", "m", 1.0, ""),
+           ("waist_size_after", "waist size after", "m", "mm", 1e3, ""))
+       for plane in ("tangential", "sagittal")},
+    "distance_m": _Show("distance", "m", _g()),
+    "footprint_rms_m": _Show("footprint rms", "mm", _MM),
+    "footprint_fwhm_m": _Show("footprint FWHM", "mm", _MM),
+    "accepted_fraction": _Show("accepted", "%", _pct),
+    "clipped_fraction": _Show("clipped", "%", _pct),
+    "power_on_mirror_w": _Show("power on the mirror", "", format_power),
+    "absorbed_w": _Show("absorbed", "", format_power),
+    "reflected_w": _Show("reflected", "", format_power),
+    "peak_incident_w_m2": _Show("peak incident", "W/mm²", _g(1e-6)),
+    "peak_absorbed_w_m2": _Show("peak absorbed", "W/mm²", _g(1e-6)),
+    "thermal_gradient_k_m": _Show("temperature gradient under the peak", "K/mm", _g(1e-3)),
+    "thermal_slope_rad": _Show("thermal slope (P-V)", "µrad", _g(1e6)),
+    "thermal_slope_rms_rad": _Show("thermal slope rms", "µrad", _g(1e6)),
+    "thermal_radius_m": _Show("thermal radius", "m", _g(), "infinite"),
 }
 
 _TITLES = {"mirror": "Grazing-incidence mirror · one thick surface",
            "stack": "Periodic multilayer stack",
            "drift": "Gas-filled drift",
-           "demand": "Scanner demand", "undulator": "Undulator resonance"}
+           "demand": "Scanner demand", "undulator": "Undulator resonance",
+           "beam": "Beam on a grazing mirror · footprint, density, thermal slope"}
+#: Calculators whose single point is listed in full (the summary alone says too little).
+_LISTED = {"beam"}
+#: Calculators whose scan table shows only these columns, under these short headings
+#: (the JSON keeps every field): their points hold more than a terminal's width.
+_TABLE_IN = {"beam": {
+    "distance_m": "distance\nm", "grazing_deg": "θ\n°", "size_tangential_m": "σt\nmm",
+    "size_sagittal_m": "σs\nmm", "footprint_rms_m": "footprint\nmm",
+    "accepted_fraction": "accepted\n%", "peak_absorbed_w_m2": "absorbed\nW/mm²",
+    "thermal_slope_rad": "slope\nµrad"}}
 
 
 #: Where a key means something else in one calculator.
@@ -180,25 +215,30 @@ def calc_renderable(document: Mapping[str, Any]) -> Group:
 
     points: list[Mapping[str, Any]] = list(document.get("points", []))
     if len(points) > 1:
-        keys = _columns(points)
+        short = _TABLE_IN.get(name)
+        keys = _columns(points) if short is None else list(short)
         fixed = [k for k in keys if all(q[k] == points[0][k] for q in points)]
-        if fixed:
+        shown = [k for k in fixed if _cell(k, points[0][k], unit=True)]  # "": nothing to say
+        if shown:
             same = " · ".join(f"{_show(k, name).label} {_cell(k, points[0][k], unit=True)}"
-                              for k in fixed)
+                              for k in shown)
             parts.append(Text(f"at every point: {same}"))
         table = Table(box=box.SIMPLE_HEAD, padding=(0, 1))
         varying = [k for k in keys if k not in fixed]
         for key in varying:
             show = _show(key, name)
-            table.add_column(f"{show.label} {show.unit}".strip(), justify="right")
+            heading = f"{show.label} {show.unit}".strip() if short is None else short[key]
+            table.add_column(heading, justify="right")
         for q in points:
             table.add_row(*(_cell(k, q[k], unit=False, calc=name) for k in varying))
         parts.append(table)
-    if "result" in document:
+    listed = points[0] if len(points) == 1 and name in _LISTED else None
+    if "result" in document or listed is not None:
         result = Table(box=None, show_header=False, padding=(0, 1, 0, 2))
         result.add_column(style="bold")
         result.add_column(overflow="fold")
-        for key, value in document["result"].items():
+        rows = document["result"] if listed is None else {k: listed[k] for k in _columns(points)}
+        for key, value in rows.items():
             show = _show(key, name)
             if value is not None or show.none:
                 result.add_row(show.label, _cell(key, value, unit=True, calc=name))
@@ -207,3 +247,37 @@ def calc_renderable(document: Mapping[str, Any]) -> Group:
         parts.append(Text(f"→ {document['summary']}", style="bold"))
     parts.append(Text(f"method: {document['method']}", style="dim"))
     return Group(*parts)
+
+
+def calc_csv(document: Mapping[str, Any]) -> str:
+    """The points of a calculator document (or its result, as one row) as CSV text.
+
+    A header of the field names, then one row per point; numbers as their shortest
+    exact text (the JSON's own values), booleans as ``true``/``false``, null (and a
+    value that is not finite) as empty.
+
+    Examples
+    --------
+    >>> print(calc_csv({"points": [{"length_m": 2.0, "transmission": 0.5, "x": None}]}), end="")
+    length_m,transmission,x
+    2.0,0.5,
+    """
+    import csv
+    import io
+
+    rows: list[Mapping[str, Any]] = list(document.get("points") or [document.get("result", {})])
+    keys = list(rows[0]) if rows else []
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(keys)
+    for row in rows:
+        writer.writerow([_csv_cell(row.get(k)) for k in keys])
+    return buffer.getvalue()
+
+
+def _csv_cell(value: Any) -> Any:
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return ""  # JSON's null
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    return repr(value) if isinstance(value, float) else value
