@@ -193,3 +193,18 @@ def test_batched_coefficient_edits_match_one_by_one() -> None:
     assert np.array_equal(t1, t2) and np.array_equal(f1, f2, equal_nan=True)
     assert batched.stages == single.stages > 60  # some samples need the filling stages
     assert 0 < (t1 >= 1 - 1e-6).sum() < 60
+
+
+def test_threads_stop_cleanly_with_the_samples_so_far() -> None:
+    layout = load_layout("layouts/two-bay.yaml")
+    network = build_network(layout)
+    plan = plan_network(network)
+    model = build_model(load_tolerances("layouts/tolerances/two-bay.yaml"), layout,
+                        network, plan)
+
+    def stop(done: int, total: int) -> None:
+        raise KeyboardInterrupt
+
+    run = run_tolerance(network, plan, model, samples=40000, progress=stop, threads=2)
+    assert run.interrupted and run.sensitivity is None
+    assert run.tally.samples == 8192  # one task of one chunk came back before the stop
