@@ -24,11 +24,11 @@ from typing import Any
 import numpy as np
 from scipy import special, stats
 
-__all__ = ["ColumnSampler", "column_sampler"]
+__all__ = ["FRACTIONS", "ColumnSampler", "column_sampler"]
 
 _PLAIN = ("normal", "uniform", "lognormal")
 _NONNEGATIVE = ("power", "roughness", "pressure", "dose", "wph", "grazing")
-_FRACTIONS = {"reflectivity", "transmission", "efficiency", "fraction", "setting"}
+FRACTIONS = {"reflectivity", "transmission", "efficiency", "fraction", "setting"}  # in [0, 1]
 _U_EPS = 1e-12  # uniforms are kept inside [eps, 1 - eps]: finite normal quantiles
 
 
@@ -52,7 +52,7 @@ def _value(v: Any, p: np.ndarray) -> np.ndarray:
 def _factor(v: Any, p: np.ndarray) -> np.ndarray:
     value = _value(v, p)
     prop = v.tolerance.property
-    if prop in _FRACTIONS:
+    if prop in FRACTIONS:
         value = np.clip(value, 0.0, 1.0)
     elif prop in _NONNEGATIVE:
         value = np.maximum(value, 0.0)
@@ -200,7 +200,7 @@ def column_sampler(variables: Sequence[Any], var_dims: Sequence[tuple[int, int, 
         else:
             sigma = t.spread * abs(mu) if t.relative else t.spread
         low, high = -math.inf, math.inf
-        if t.property in _FRACTIONS:
+        if t.property in FRACTIONS:
             low, high = 0.0, 1.0
         elif t.property in _NONNEGATIVE:
             low = 0.0

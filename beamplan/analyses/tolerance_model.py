@@ -28,7 +28,7 @@ from typing import Any
 
 import numpy as np
 
-from beamplan.analyses.tolerance_draw import _FRACTIONS, ColumnSampler, column_sampler
+from beamplan.analyses.tolerance_draw import FRACTIONS, ColumnSampler, column_sampler
 from beamplan.errors import Diagnostic, LayoutError, did_you_mean
 from beamplan.layout.model import (
     AttenuatorSpec,
@@ -315,7 +315,7 @@ def build_model(tolerances: ToleranceSet, layout: Layout, network: Network,
         t = v.tolerance
         own, gdim, rho = var_dims[i]
         shared = own < 0 and v.table is None and t.relative and t.distribution != "truncnormal"
-        key: tuple[object, ...] = (("g", gdim, t.distribution, t.spread, t.property in _FRACTIONS
+        key: tuple[object, ...] = (("g", gdim, t.distribution, t.spread, t.property in FRACTIONS
                                     and v.nominal * (1 + 8 * t.spread) > 1 and v.nominal)
                                    if shared else ("v", i))
         columns.setdefault(key, []).append(i)
