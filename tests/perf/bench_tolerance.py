@@ -6,8 +6,9 @@ Run: ``python tests/perf/bench_tolerance.py [--scanners 100] [--samples 1000000]
 Fixed settings: the whole pipeline (sampling, distributions, path products,
 tallies) for ``--samples`` samples on one thread, on ``--jobs`` threads of this
 process and on ``--jobs`` worker processes, against bare numpy evaluating the
-same path-gain products (``exp(log F @ counts) · p0``, a comparison with the
-needs and a count) on factor arrays prepared in advance. Target (issue 12):
+same path-gain products (``exp(log F @ counts) · p0`` with numpy's einsum, a
+comparison with the needs and a count) on factor arrays prepared in advance;
+the ratio is the share of sampling and tallies. Target (issue 12):
 10^6 samples of a 100-scanner layout in under 5 s on 2 cores.
 
 Retuned settings: ``--retuned`` samples re-planned on the live model against
@@ -18,12 +19,15 @@ Target: a ratio within 2.
 Measured on the shared 2-core machine, 10^6 fixed samples (the same tallies,
 bit for bit, before and after):
 
-* before (column-by-column draws, BLAS products): 9.4 s on 1 process, 20 s on
-  2 processes (load 1.7); earlier runs 7.3-7.8 s on 2 processes;
-* after: 4.1 s on 1 thread, 2.75 s on 2 processes (load 1.8); about 3.8 s of
-  CPU per 10^6 samples, so about 2 s on two free cores; with two other jobs
-  holding both cores (load 3-5), 5-9 s whatever the split.
-* retuned, ratio to the raw loop: 2.2-2.9 before (by load), 1.9-2.0 after
+* before (column-by-column draws, threaded BLAS products): 9.1-10.8 s on
+  1 process, 8.8-20 s on 2 processes; earlier runs 7.3-7.8 s on 2 processes;
+* after: 4.2 s on 1 thread (CPU 4.1 s), 3.2 s on 2 threads, 2.65 s on
+  2 processes (load 2); with two other jobs holding both cores (load 3-5),
+  5-9 s whatever the split;
+* ratio to bare numpy: about 6 after; 2.1 before against a bare baseline
+  that used the threaded BLAS product (4.5 s; 0.7 s with einsum), about 13
+  against the einsum baseline;
+* retuned, ratio to the raw loop: 2.2-3.9 before (by load), 1.8-2.0 after
   (each sample's coefficient edits passed to the backend in one call).
 
 A benchmark, not a test: the machine is shared and noisy, so it prints ratios
