@@ -11,14 +11,15 @@ gives the same bytes on any executor.
 
 from __future__ import annotations
 
+import threading
 import warnings
 from collections.abc import Callable
-from concurrent.futures import Executor, Future
+from concurrent.futures import Executor, Future, ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
 
-from beamplan.analyses.tolerance_fixed import FixedPaths, fixed_paths, log_factors
+from beamplan.analyses.tolerance_fixed import FixedPaths, fixed_paths
 from beamplan.analyses.tolerance_model import ToleranceModel
 from beamplan.analyses.tolerance_stats import SobolIndices, sobol_indices
 from beamplan.network.graph import Network
@@ -57,11 +58,17 @@ class Tally:
 _STEP = 0.001
 
 
+def _bins(values: np.ndarray) -> np.ndarray:
+    """Histogram bin of each value: floor(value / step), NaN and below 0 in the first
+    bin, above 4 (and +inf) in the last; EDGES are evenly spaced."""
+    scaled = values / _STEP
+    np.fmax(scaled, 0.0, out=scaled)  # NaN and -inf to the first bin
+    np.fmin(scaled, len(EDGES) - 2, out=scaled)  # +inf to the last
+    return scaled.astype(np.intp)
+
+
 def _histogram(values: np.ndarray) -> np.ndarray:
-    # EDGES are evenly spaced: the bin is floor(value / step); outside [0, 4] the end bins.
-    scaled = np.nan_to_num(values / _STEP, nan=0.0, posinf=len(EDGES), neginf=0.0)
-    bins = np.clip(scaled, 0, len(EDGES) - 2).astype(np.int64)
-    return np.bincount(bins, minlength=len(EDGES) - 1)
+    return np.bincount(_bins(values), minlength=len(EDGES) - 1)
 
 
 def tally(factors: np.ndarray, lowest: np.ndarray | None = None,
@@ -78,18 +85,20 @@ def tally(factors: np.ndarray, lowest: np.ndarray | None = None,
     """
     n, s = factors.shape
     low = factors.min(axis=1) if lowest is None else lowest
-    met = factors >= MEET
     bins = len(EDGES) - 1
     if s:  # every scanner's histogram in one count: bin + scanner × bins
-        scaled = np.nan_to_num(factors / _STEP, nan=0.0, posinf=bins, neginf=0.0)
-        index = np.clip(scaled, 0, bins - 1).astype(np.int64) + np.arange(s) * bins
+        index = _bins(factors)
+        index += np.arange(s) * bins
         hist = np.bincount(index.ravel(), minlength=s * bins).reshape(s, bins)
+        met = np.count_nonzero(factors >= MEET, axis=0)
     else:
         hist = np.zeros((0, bins), dtype=np.int64)
-    ok = low >= MEET if lowest is not None else met.all(axis=1)
-    hot = np.zeros(n, dtype=bool) if overheated is None else overheated
-    return Tally(n, met.sum(axis=0), int(np.count_nonzero(ok & ~hot)), hist, _histogram(low),
-                 int(np.count_nonzero(hot)))
+        met = np.zeros(0, dtype=np.int64)
+    ok = low >= MEET if lowest is not None else (factors >= MEET).all(axis=1)
+    if overheated is not None:
+        ok &= ~overheated
+    return Tally(n, met, int(np.count_nonzero(ok)), hist, _histogram(low),
+                 0 if overheated is None else int(np.count_nonzero(overheated)))
 
 
 def uniforms(sampler: str, dims: int, start: int, size: int, seed: int) -> np.ndarray:
@@ -132,6 +141,8 @@ class _Job:
 
 
 _EVALUATORS: dict[tuple[object, ...], object] = {}
+_LAST: list[object] = [None, None]  # the last job and its evaluator: no key to hash
+_BUILDING = threading.Lock()
 
 
 Evaluator = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray, np.ndarray | None]]
@@ -139,32 +150,39 @@ Evaluator = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray, np.ndarray | No
 
 def _evaluator(job: _Job) -> Evaluator:
     """(factors, lowest factor, overheated or None) per sample for factor columns."""
-    # By content, not identity: a worker process gets a fresh copy with every chunk.
+    last = tuple(_LAST)
+    if last[0] is job:
+        return last[1]  # type: ignore[return-value]
+    with _BUILDING:
+        evaluator = _build_evaluator(job)
+        _LAST[:] = [job, evaluator]
+    return evaluator
+
+
+def _build_evaluator(job: _Job) -> Evaluator:
+    # By content, not identity: a worker process gets a fresh copy with every task.
     key = (job.network.sha256, len(job.network.nodes), job.mode, job.solver, job.model.knobs,
            job.model.dim_labels, job.plan.headroom_factor)
-    if key not in _EVALUATORS:
-        _EVALUATORS.clear()
-        if job.mode == "fixed":
-            paths: FixedPaths = fixed_paths(job.network, job.plan, job.model)
-            def fixed(cols: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-                logs = log_factors(cols)
-                factors = paths.factors(cols, logs)
-                low = factors.min(axis=1) if factors.shape[1] else np.ones(len(cols))
-                # A heat limit exceeded fails the fab-wide check (a re-plan obeys it).
-                return factors, low, paths.overheated(cols, logs)
+    if key in _EVALUATORS:
+        return _EVALUATORS[key]  # type: ignore[return-value]
+    _EVALUATORS.clear()
+    evaluator: Evaluator
+    if job.mode == "fixed":
+        paths: FixedPaths = fixed_paths(job.network, job.plan, job.model)
+        # A heat limit exceeded fails the fab-wide check (a re-plan obeys it).
+        evaluator = paths.evaluate
+    else:
+        from beamplan.analyses.tolerance_retune import RetuneModel
 
-            _EVALUATORS[key] = fixed
-        else:
-            from beamplan.analyses.tolerance_retune import RetuneModel
+        live = RetuneModel(job.network, job.model, job.solver)
 
-            live = RetuneModel(job.network, job.model, job.solver)
+        def retuned(cols: np.ndarray) -> tuple[np.ndarray, np.ndarray, None]:
+            factors, best = live.evaluate(cols)
+            return factors, best, None
 
-            def retuned(cols: np.ndarray) -> tuple[np.ndarray, np.ndarray, None]:
-                factors, best = live.evaluate(cols)
-                return factors, best, None
-
-            _EVALUATORS[key] = retuned
-    return _EVALUATORS[key]  # type: ignore[return-value]
+        evaluator = retuned
+    _EVALUATORS[key] = evaluator
+    return evaluator
 
 
 def run_chunk(job: _Job, start: int, size: int) -> Tally:
@@ -211,7 +229,8 @@ def run_tolerance(network: Network, plan: Plan, model: ToleranceModel, *, sample
                   mode: str = "fixed", sampler: str = "random", seed: int = 0,
                   solver: Solver | str = Solver.AUTO, executor: Executor | None = None,
                   progress: Callable[[int, int], None] | None = None,
-                  sensitivity_samples: int = 512, width: float | None = None) -> ToleranceRun:
+                  sensitivity_samples: int = 512, width: float | None = None,
+                  threads: int = 1) -> ToleranceRun:
     """Sample the tolerances and tally how often each scanner (and all) meet their need.
 
     Parameters
@@ -220,6 +239,9 @@ def run_tolerance(network: Network, plan: Plan, model: ToleranceModel, *, sample
         ``fixed``: the plan's settings stay; ``retuned``: re-plan every sample.
     executor
         Run chunks on it (any ``concurrent.futures.Executor``); ``None`` runs here.
+    threads
+        Fixed mode without an executor: run chunks on this many threads of this
+        process (numpy releases the GIL); the same tally as one thread.
     sensitivity_samples
         Saltelli base samples for the Sobol' indices (a power of two; 0: none).
     progress
@@ -249,6 +271,9 @@ def run_tolerance(network: Network, plan: Plan, model: ToleranceModel, *, sample
     serving = [s for s in plan.scanners if s.status != ScannerStatus.OUT_OF_SERVICE]
     total = tally(np.zeros((0, len(serving))))
     interrupted = False
+    pool = ThreadPoolExecutor(threads) if executor is None and threads > 1 and \
+        mode == "fixed" else None  # a live model is not shared between threads
+    executor = executor or pool
     try:
         if executor is None:
             for start, size in starts:
@@ -273,6 +298,9 @@ def run_tolerance(network: Network, plan: Plan, model: ToleranceModel, *, sample
                 raise
     except KeyboardInterrupt:
         interrupted = True
+    finally:
+        if pool is not None:
+            pool.shutdown(wait=True, cancel_futures=True)
     indices = None
     if sensitivity_samples and model.dimensions and not interrupted:
         try:

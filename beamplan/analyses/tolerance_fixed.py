@@ -15,6 +15,7 @@ gives factors of exactly 1, so the plan's delivered powers come back exactly.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -50,47 +51,92 @@ class FixedPaths:
     heat_column: np.ndarray | None = None  # its gain's factor column, or -1
     heat_limit_w: np.ndarray | None = None
 
+    @cached_property
+    def _prepared(self) -> _Prepared:
+        return _prepare(self)
+
     def extended(self, columns: np.ndarray, logs: np.ndarray) -> np.ndarray:
         """The log-factors with the derived complement columns appended."""
         if not self.complements or logs.shape[1] > columns.shape[1]:
             return logs
-        extra = [np.log(np.maximum(1.0 - s * columns[:, c], 1e-300) / (1.0 - s))
-                 for c, s in self.complements]
-        return np.column_stack([logs, *extra])
+        return np.column_stack([logs, *self._complement_logs(columns)])
+
+    def _complement_logs(self, columns: np.ndarray) -> list[np.ndarray]:
+        return [np.log(np.maximum(1.0 - s * columns[:, c], 1e-300) / (1.0 - s))
+                for c, s in self.complements]
+
+    def _logs(self, columns: np.ndarray, wanted: np.ndarray) -> np.ndarray:
+        """Log-factors of the (extended) columns ``wanted`` only, in that order."""
+        width = columns.shape[1]
+        base = wanted[wanted < width]
+        out = np.empty((columns.shape[0], len(wanted)))
+        out[:, wanted < width] = log_factors(columns[:, base])
+        if len(base) < len(wanted):
+            extra = self._complement_logs(columns)
+            for k in np.nonzero(wanted >= width)[0]:
+                out[:, k] = extra[wanted[k] - width]
+        return out
+
+    def evaluate(self, columns: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Factors (n × scanners), the lowest factor and overheated, per sample.
+
+        The same numbers as :meth:`factors` and :meth:`overheated`, with the
+        logarithms taken once, of the columns some path or heat check uses.
+
+        Examples
+        --------
+        >>> paths = FixedPaths(("a",), np.array([100.0]), np.array([120.0]),
+        ...                    np.array([[1.0]]), np.array([0]), np.array([-1]))
+        >>> f, low, hot = paths.evaluate(np.array([[0.5], [1.0]]))
+        >>> low.tolist(), hot.tolist()
+        ([0.6, 1.2], [False, False])
+        """
+        pre = self._prepared
+        logs = self._logs(columns, pre.wanted)
+        factors = self._factors(columns, logs[:, pre.path_logs])
+        low = factors.min(axis=1) if factors.shape[1] else np.ones(len(columns))
+        return factors, low, self._overheated(columns, logs[:, pre.heat_logs],
+                                              logs[:, pre.gain_logs])
 
     def overheated(self, columns: np.ndarray, logs: np.ndarray | None = None) -> np.ndarray:
         """Whether any heat-limited plain optic absorbs more than its limit, per sample."""
+        pre = self._prepared
+        if logs is None:
+            return self._overheated(columns, self._logs(columns, pre.heat_used),
+                                    self._logs(columns, pre.gain_used))
+        logs = self.extended(columns, logs)
+        return self._overheated(columns, logs[:, pre.heat_used], logs[:, pre.gain_used])
+
+    def _overheated(self, columns: np.ndarray, logs: np.ndarray, gain_logs: np.ndarray
+                    ) -> np.ndarray:
         n = columns.shape[0]
-        if self.heat_limit_w is None or not len(self.heat_limit_w):
+        pre = self._prepared
+        if self.heat_limit_w is None or not len(self.heat_limit_w) or not n:
             return np.zeros(n, dtype=bool)
-        assert self.heat_count is not None and self.heat_p0_w is not None
-        assert self.heat_owner is not None and self.heat_gain is not None
-        assert self.heat_column is not None
-        logs = self.extended(columns, log_factors(columns) if logs is None else logs)
+        assert self.heat_p0_w is not None and self.heat_owner is not None
+        assert self.heat_gain is not None and self.heat_column is not None
         # A bound first, from each column's largest and smallest factor in this chunk:
         # only optics that might exceed their limit are evaluated sample by sample.
-        used = np.nonzero(self.heat_count.any(axis=1))[0]
-        high = np.exp(logs.max(axis=0)[used] @ self.heat_count[used]) * self.heat_p0_w
+        high = np.exp(logs.max(axis=0) @ pre.heat_count) * self.heat_p0_w
         incident_ub = np.bincount(self.heat_owner, high, minlength=len(self.heat_limit_w))
-        low_gain = self.heat_gain * np.where(self.heat_column >= 0, np.exp(logs.min(axis=0)[
-            np.maximum(self.heat_column, 0)]) if logs.shape[1] else 1.0, 1.0)
+        low_gain = self.heat_gain.copy()
+        if len(pre.gain_used):
+            low_gain[pre.gain_has] *= np.exp(gain_logs.min(axis=0))[pre.gain_index]
         maybe = np.nonzero(incident_ub * (1.0 - low_gain) > self.heat_limit_w)[0]
         if not len(maybe):
             return np.zeros(n, dtype=bool)
-        keep = np.isin(self.heat_owner, maybe)
-        owner = np.searchsorted(maybe, self.heat_owner[keep])
-        per_path = np.exp(logs[:, used] @ self.heat_count[used][:, keep]) * \
-            self.heat_p0_w[keep]
-        indicator = np.zeros((len(owner), len(maybe)))
-        indicator[np.arange(len(owner)), owner] = 1.0
-        incident = per_path @ indicator
+        keep = np.nonzero(np.isin(self.heat_owner, maybe))[0]
+        keep = keep[np.argsort(self.heat_owner[keep], kind="stable")]  # by optic
+        per_path = np.exp(_product(logs, pre.heat_count[:, keep])) * self.heat_p0_w[keep]
+        starts = np.searchsorted(self.heat_owner[keep], maybe)
+        incident = per_path if len(keep) == len(maybe) else \
+            np.add.reduceat(per_path, starts, axis=1)
         gain = np.broadcast_to(self.heat_gain[maybe], incident.shape).copy()
         cols = self.heat_column[maybe]
         has = cols >= 0
         gain[:, has] *= columns[:, cols[has]]
-        hot: np.ndarray = (incident * (1.0 - gain) >
-                           self.heat_limit_w[maybe] * (1.0 + 1e-6)).any(axis=1)
-        return hot
+        hot = incident * (1.0 - gain) > self.heat_limit_w[maybe] * (1.0 + 1e-6)
+        return np.asarray(hot.any(axis=1))
 
     def factors(self, columns: np.ndarray, logs: np.ndarray | None = None) -> np.ndarray:
         """Delivered ÷ need per sample and scanner (n × scanners) from factor columns.
@@ -102,25 +148,82 @@ class FixedPaths:
         >>> paths.factors(np.array([[0.5], [1.0]])).ravel().tolist()
         [0.6, 1.2]
         """
+        pre = self._prepared
+        if logs is None:
+            return self._factors(columns, self._logs(columns, pre.used))
+        return self._factors(columns, self.extended(columns, logs)[:, pre.used])
+
+    def _factors(self, columns: np.ndarray, logs: np.ndarray) -> np.ndarray:
         n = columns.shape[0]
-        logs = self.extended(columns, log_factors(columns) if logs is None else logs)
-        used = np.nonzero(self.count.any(axis=1))[0]  # columns on some path (not the needs)
-        exponent = logs[:, used] @ self.count[used] if len(used) else \
-            np.zeros((n, len(self.p0_w)))
-        per_path = np.exp(exponent)
+        pre = self._prepared
+        if len(pre.used):
+            per_path = _product(logs, pre.count)
+            np.exp(per_path, out=per_path)
+        else:
+            per_path = np.ones((n, len(self.p0_w)))
         per_path *= self.p0_w
-        if len(self.to_scanner) == len(self.scanners) and \
-                np.array_equal(self.to_scanner, np.arange(len(self.scanners))):
+        if pre.identity:
             delivered = per_path
         else:
             delivered = np.zeros((n, len(self.scanners)))
             np.add.at(delivered.T, self.to_scanner, per_path.T)
         with np.errstate(divide="ignore", invalid="ignore"):
-            out: np.ndarray = delivered / self.need_w  # a need of 0 gives inf (always met)
-            has = self.need_column >= 0
-            if has.any():
-                out[:, has] /= columns[:, self.need_column[has]]
-        return out
+            delivered /= self.need_w  # a need of 0 gives inf (always met)
+            if pre.need_all:
+                delivered /= columns[:, self.need_column]
+            elif pre.need_has.any():
+                delivered[:, pre.need_has] /= columns[:, self.need_column[pre.need_has]]
+        return delivered
+
+
+@dataclass(frozen=True)
+class _Prepared:
+    """Index arrays of a :class:`FixedPaths`, derived once."""
+
+    used: np.ndarray  # extended columns on some scanner path
+    count: np.ndarray  # their rows of the count matrix
+    identity: bool  # one path per scanner, in order
+    need_has: np.ndarray
+    need_all: bool
+    heat_used: np.ndarray  # extended columns on some heat path
+    heat_count: np.ndarray
+    gain_used: np.ndarray  # the distinct gain columns of heat-limited optics
+    gain_has: np.ndarray  # per heat-limited optic: whether it has a gain column
+    gain_index: np.ndarray  # for those: which of gain_used
+    wanted: np.ndarray  # the union of the three, and where each lies in it
+    path_logs: np.ndarray
+    heat_logs: np.ndarray
+    gain_logs: np.ndarray
+
+
+def _prepare(paths: FixedPaths) -> _Prepared:
+    used = np.nonzero(paths.count.any(axis=1))[0]  # columns on some path (not the needs)
+    n = len(paths.scanners)
+    identity = len(paths.to_scanner) == n and np.array_equal(paths.to_scanner, np.arange(n))
+    has = paths.need_column >= 0
+    heat = paths.heat_count if paths.heat_count is not None else \
+        np.zeros((paths.count.shape[0], 0))
+    heat_used = np.nonzero(heat.any(axis=1))[0]
+    column = paths.heat_column if paths.heat_column is not None else np.zeros(0, dtype=int)
+    gain_has = column >= 0
+    gain_used, gain_index = np.unique(column[gain_has], return_inverse=True)
+    wanted = np.unique(np.concatenate([used, heat_used, gain_used])).astype(np.intp)
+    return _Prepared(used, np.ascontiguousarray(paths.count[used]), identity, has,
+                     bool(has.all()) and n > 0, heat_used,
+                     np.ascontiguousarray(heat[heat_used]), gain_used, gain_has,
+                     gain_index.reshape(-1), wanted, np.searchsorted(wanted, used),
+                     np.searchsorted(wanted, heat_used), np.searchsorted(wanted, gain_used))
+
+
+def _product(logs: np.ndarray, count: np.ndarray) -> np.ndarray:
+    """Path exponents: ``logs @ count`` with numpy's own loop (no BLAS threads).
+
+    A product with a few factor columns is memory-bound; the threaded BLAS
+    routine spends more on waking its threads than on the sums, and stalls
+    when the machine is busy.
+    """
+    out: np.ndarray = np.einsum("nk,kp->np", logs, count)
+    return out
 
 
 def log_factors(columns: np.ndarray) -> np.ndarray:

@@ -23,11 +23,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from functools import cached_property
 from typing import Any
 
 import numpy as np
-from scipy import special, stats
 
+from beamplan.analyses.tolerance_draw import FRACTIONS, ColumnSampler, column_sampler
 from beamplan.errors import Diagnostic, LayoutError, did_you_mean
 from beamplan.layout.model import (
     AttenuatorSpec,
@@ -47,8 +48,6 @@ from beamplan.optimise.result import Plan
 __all__ = ["Knob", "ToleranceModel", "Variable", "build_model"]
 
 GRID = 129
-_U_EPS = 1e-12
-_FRACTIONS = {"reflectivity", "transmission", "efficiency", "fraction", "setting"}
 _PHYSICAL = {"roughness": "roughness_m", "grazing": "grazing_rad", "pressure": "pressure_pa",
              "dose": "dose_j_m2", "wph": "wafers_per_hour"}
 
@@ -102,55 +101,19 @@ class ToleranceModel:
         """The largest relative error of a tabulated factor (0 when none is tabulated)."""
         return max((v.table_error for v in self.variables), default=0.0)
 
+    @cached_property
+    def _sampler(self) -> ColumnSampler:
+        return column_sampler(self.variables, self.var_dims, self.columns)
+
     def factors(self, u: np.ndarray) -> np.ndarray:
-        """Factor columns (n × columns) from uniforms (n × dimensions)."""
-        n = u.shape[0]
-        out = np.empty((n, len(self.columns)))
-        u = np.clip(u, _U_EPS, 1.0 - _U_EPS)
-        for c, members in enumerate(self.columns):
-            i = members[0]
-            own, group, rho = self.var_dims[i]
-            if group < 0:
-                p = u[:, own]
-            elif own < 0:
-                p = u[:, group]
-            else:
-                z = math.sqrt(rho) * special.ndtri(u[:, group]) + \
-                    math.sqrt(1.0 - rho) * special.ndtri(u[:, own])
-                p = np.clip(special.ndtr(z), _U_EPS, 1.0 - _U_EPS)
-            out[:, c] = _factor(self.variables[i], p)
-        return out
+        """Factor columns (n × columns) from uniforms (n × dimensions).
 
-
-def _value(v: Variable, p: np.ndarray) -> np.ndarray:
-    t, mu = v.tolerance, v.nominal
-    sigma = t.spread * abs(mu) if t.relative else t.spread
-    if t.distribution == "normal":
-        return np.asarray(mu + sigma * special.ndtri(p))
-    if t.distribution == "uniform":
-        return np.asarray(mu + sigma * (2.0 * p - 1.0))
-    if t.distribution == "lognormal":
-        s = t.spread if t.relative else (t.spread / abs(mu) if mu else 0.0)
-        return np.asarray(mu * np.exp(s * special.ndtri(p)))
-    assert t.bounds is not None
-    if sigma == 0.0:
-        return np.full_like(p, min(max(mu, t.bounds[0]), t.bounds[1]))
-    a, b = (t.bounds[0] - mu) / sigma, (t.bounds[1] - mu) / sigma
-    return mu + sigma * np.asarray(stats.truncnorm.ppf(p, a, b))
-
-
-def _factor(v: Variable, p: np.ndarray) -> np.ndarray:
-    value = _value(v, p)
-    prop = v.tolerance.property
-    if prop in _FRACTIONS:
-        value = np.clip(value, 0.0, 1.0)
-    elif prop in ("power", "roughness", "pressure", "dose", "wph", "grazing"):
-        value = np.maximum(value, 0.0)
-    if v.table is not None:
-        return np.asarray(np.interp(value, v.table[0], v.table[1]))
-    if v.nominal == 0.0:
-        return np.ones_like(value)
-    return np.asarray(value / v.nominal)
+        Examples
+        --------
+        >>> ToleranceModel((), (), (), (), (), ()).factors(np.zeros((3, 0))).shape
+        (3, 0)
+        """
+        return self._sampler.factors(u)
 
 
 def _span(t: Tolerance, mu: float) -> tuple[float, float]:
@@ -352,7 +315,7 @@ def build_model(tolerances: ToleranceSet, layout: Layout, network: Network,
         t = v.tolerance
         own, gdim, rho = var_dims[i]
         shared = own < 0 and v.table is None and t.relative and t.distribution != "truncnormal"
-        key: tuple[object, ...] = (("g", gdim, t.distribution, t.spread, t.property in _FRACTIONS
+        key: tuple[object, ...] = (("g", gdim, t.distribution, t.spread, t.property in FRACTIONS
                                     and v.nominal * (1 + 8 * t.spread) > 1 and v.nominal)
                                    if shared else ("v", i))
         columns.setdefault(key, []).append(i)

@@ -162,18 +162,24 @@ class RetuneModel:
         b.set_objective({m.factor_col: -1.0})
         for col in m.shortfall_col.values():
             b.set_bounds(col, 0.0, 0.0)
+        # One list of edits per sample: the entries, then each demand row's factor column.
+        rows = [e.row for e in self.entries] + [m.demand_row[s.id] for s in self.scanners]
+        cols = [e.col for e in self.entries] + [m.factor_col] * len(self.scanners)
+        demand = [m.demand_row[s.id] for s in self.scanners]
+        batch = getattr(b, "set_coefficients", None)
+        has = self.need_col >= 0
         for i in range(n):
-            row_vals = values[i]
-            for e, entry in enumerate(self.entries):
-                b.set_coefficient(entry.row, entry.col, float(row_vals[e]))
+            needs = self.need_w.copy()
+            needs[has] *= columns[i, self.need_col[has]]
+            edits = values[i].tolist() + (-needs).tolist()
+            if batch is not None:
+                batch(rows, cols, edits)
+            else:
+                for row, col, value in zip(rows, cols, edits, strict=True):
+                    b.set_coefficient(row, col, value)
             for row, avail, col in self.sources:
                 b.set_rhs(row, avail * (float(columns[i, col]) if col >= 0 else 1.0))
-            needs = self.need_w.copy()
-            has = self.need_col >= 0
-            needs[has] *= columns[i, self.need_col[has]]
-            for j, s in enumerate(self.scanners):
-                row = m.demand_row[s.id]
-                b.set_coefficient(row, m.factor_col, -float(needs[j]))
+            for row in demand:
                 b.set_rhs(row, 0.0)
             b.set_bounds(m.factor_col, 0.0, INF)
             sol = b.solve()
